@@ -1,0 +1,9 @@
+"""Subcommands for the currency engine: evaluate, timeline."""
+
+from __future__ import annotations
+
+import argparse
+
+
+def register(sub: argparse._SubParsersAction) -> None:
+    """Add this area's subcommands to the ``planner`` parser."""
