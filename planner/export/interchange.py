@@ -45,7 +45,7 @@ Rules (the same for both formats; docs/interchange.md has the full list):
 
 Canonical output: entries sorted by (date, id), every field written in a fixed
 order with its default, hours as the shortest number (``0``, ``1.5``, ``1.25``),
-JSON indented by 2 with a trailing newline; CSV with ``\\n`` line ends. So
+JSON indented by 2 with a trailing newline; CSV with RFC 4180 ``\\r\\n`` line ends. So
 write -> read -> write is byte-identical, and the readers also return entries
 sorted by (date, id).
 """
@@ -957,7 +957,7 @@ def write_csv(logbook: Logbook) -> str:
     """Write the canonical CSV document (see the module docstring)."""
     doc = _document(logbook)
     out = io.StringIO()
-    writer = csv.writer(out, lineterminator="\n")
+    writer = csv.writer(out, lineterminator="\r\n")  # RFC 4180; also makes csv quote a lone "\r"
     p = doc["pilot"]
     writer.writerow(CSV_PILOT_COLUMNS)
     writer.writerow(

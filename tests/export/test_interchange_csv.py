@@ -51,14 +51,15 @@ HEADER_LINE = ",".join(ix.CSV_ENTRY_COLUMNS)
 
 def test_csv_layout_is_pilot_block_blank_line_entry_table():
     text = ix.write_csv(BOOK)
-    lines = text.split("\n")
+    assert text.endswith("\r\n")  # RFC 4180 line ends
+    lines = text.split("\r\n")
     assert lines[0] == "format_version,pilot_name,home_timezone,instrument_categories,category_classes"
     assert lines[1] == "1,Test Pilot,America/Denver,airplane,airplane/single-engine-land; airplane/multi-engine-land"
     assert lines[2] == ""
     assert lines[3] == HEADER_LINE
     assert lines[4].startswith("f1,2026-06-01,aircraft,airplane,,,")
     assert lines[5].startswith("f2,2026-06-02,")
-    assert text.endswith("\n") and "\r" not in text
+    assert lines[6] == "" and len(lines) == 7
 
 
 def test_approaches_cell_sub_format():
