@@ -167,3 +167,18 @@ def test_csv_error_carries_line_entry_and_field():
     with pytest.raises(ix.InterchangeError) as caught:
         ix.read_csv(_row(holds="-1"))
     assert (caught.value.line, caught.value.entry_id, caught.value.field) == (5, "e1", "holds")
+
+
+def _doc_block(lang: str) -> str:
+    from pathlib import Path
+
+    text = (Path(__file__).parents[2] / "docs" / "interchange.md").read_text(encoding="utf-8")
+    return text.split(f"```{lang}\n", 1)[1].split("```", 1)[0]
+
+
+def test_examples_in_the_documentation_read_and_agree():
+    from_json = ix.read_json(_doc_block("json"))
+    csv_example = _doc_block("csv").replace("\n", "\r\n")
+    from_csv = ix.read_csv(csv_example)
+    assert from_json == from_csv
+    assert ix.write_csv(from_json) == csv_example
