@@ -212,8 +212,10 @@ def _optional_text(value: Any, field: str) -> str | None:
 
 
 def _count(value: Any, field: str) -> int:
-    if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= MAX_COUNT:
+    if isinstance(value, bool) or not isinstance(value, int) or value < 0:
         raise _Bad(field, f"must be a whole number >= 0, got {_show(value)}")
+    if value > MAX_COUNT:
+        raise _Bad(field, f"must be at most {MAX_COUNT}, got {_show(value)}")
     return value
 
 

@@ -132,6 +132,16 @@ REFUSALS = [
         id="negative-count",
     ),
     pytest.param(
+        doc(entry("e17", landings=100_000)),
+        'entry "e17": field "landings": must be at most 99999, got 100000',
+        id="count-too-large",
+    ),
+    pytest.param(
+        doc(entry("e4", total_hours=100_000)),
+        'entry "e4": field "total_hours": must be a number of hours from 0 to 99999.99, got 100000',
+        id="hours-too-large",
+    ),
+    pytest.param(
         doc(entry("e17", landings=2.5)),
         'entry "e17": field "landings": must be a whole number >= 0, got 2.5',
         id="fractional-count",
