@@ -244,7 +244,9 @@ class Entry(Base):
         order_by="EntryRevision.version", back_populates="entry"
     )
 
-    __mapper_args__ = {"version_id_col": version}
+    # The repository sets ``version`` itself; SQLAlchemy adds "AND version = <old>"
+    # to every UPDATE, so a save from a stale copy fails instead of overwriting.
+    __mapper_args__ = {"version_id_col": version, "version_id_generator": False}
 
 
 class Approach(Base):
