@@ -24,6 +24,14 @@ PG_ADMIN_URL = os.environ.get("PLANNER_TEST_PG_ADMIN_URL", "postgresql+psycopg:/
 DEMO_SLUGS = ("mara", "tobias", "priya", "dev", "signe", "rafael")
 
 
+@pytest.fixture(autouse=True)
+def _isolated_environment(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    """No test reads the developer's settings or writes under the repository's instance/."""
+    for name in ("PLANNER_DATABASE_URL", "PLANNER_SECRET_KEY", "PLANNER_SEED_DIR"):
+        monkeypatch.delenv(name, raising=False)
+    monkeypatch.setenv("PLANNER_INSTANCE_DIR", str(tmp_path / "instance"))
+
+
 # ------------------------------------------------------------------ SQLite
 
 
@@ -86,6 +94,26 @@ def pg_url(request: pytest.FixtureRequest) -> Iterator[str]:
         with admin.connect() as conn:
             conn.execute(sa.text(f'DROP DATABASE IF EXISTS "{name}" WITH (FORCE)'))
         admin.dispose()
+
+
+@pytest.fixture(scope="module")
+def pg_migrated_url(pg_url: str) -> str:
+    """The module's PostgreSQL database upgraded to the latest revision."""
+    migrate.upgrade(pg_url)
+    return pg_url
+
+
+@pytest.fixture(params=["sqlite", pytest.param("postgres", marks=pytest.mark.postgres)])
+def any_engine(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[Engine]:
+    """A migrated database on SQLite (fresh file) and on PostgreSQL (shared by the module: do not commit)."""
+    if request.param == "sqlite":
+        url = f"sqlite:///{tmp_path / 'any.sqlite3'}"
+        migrate.upgrade(url)
+    else:
+        url = request.getfixturevalue("pg_migrated_url")
+    eng = make_engine(url)
+    yield eng
+    eng.dispose()
 
 
 # ------------------------------------------------------------------ interchange
