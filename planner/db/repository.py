@@ -20,6 +20,7 @@ from typing import Any
 
 from sqlalchemy import select
 from sqlalchemy.orm import Session, selectinload
+from sqlalchemy.orm.exc import StaleDataError
 
 from planner.core import logbook as core
 from planner.db import models
@@ -409,15 +410,32 @@ def add_entries(
     return rows
 
 
-def _record_revision(
+def _claim_version(
     session: Session, row: models.Entry, action: str, changed_by: models.Person | None, stamp: datetime
 ) -> None:
+    """Bump the version (UPDATE ... WHERE version = <old>) and record the state before the change.
+
+    The guarded UPDATE runs first, so a save from a session holding an older
+    copy fails here with ``EntryConflict`` before anything else is written.
+    The caller must then roll the session back.
+    """
+    before = entry_snapshot(row)
+    old_version, external_id = row.version, row.external_id
+    row.version = old_version + 1
+    row.updated_at = stamp
+    try:
+        session.flush()
+    except StaleDataError:
+        raise EntryConflict(
+            f"entry {external_id!r} was changed by someone else since it was loaded; "
+            "reload it and apply your change again"
+        ) from None
     session.add(
         models.EntryRevision(
             entry_id=row.id,
-            version=row.version,
+            version=old_version,
             action=action,
-            snapshot=entry_snapshot(row),
+            snapshot=before,
             changed_at=stamp,
             changed_by_id=changed_by.id if changed_by is not None else None,
         )
@@ -454,14 +472,12 @@ def revise_entry(
         raise EntryRejected(row.external_id, "id", "the entry is deleted; restore it before editing")
     _check_version(row, expected_version)
     stamp = _now(now)
-    _record_revision(session, row, "edit", changed_by, stamp)
+    _claim_version(session, row, "edit", changed_by, stamp)
     # Remove the old approach/check rows first: their (entry_id, position) would clash with the new ones.
     row.approaches.clear()
     row.checks.clear()
     session.flush()
     _fill(row, new, _Links(session, row.pilot.school_id))
-    row.updated_at = stamp
-    row.version += 1
     session.flush()
     return row
 
@@ -479,10 +495,8 @@ def delete_entry(
         return row
     _check_version(row, expected_version)
     stamp = _now(now)
-    _record_revision(session, row, "delete", changed_by, stamp)
+    _claim_version(session, row, "delete", changed_by, stamp)
     row.deleted_at = stamp
-    row.updated_at = stamp
-    row.version += 1
     session.flush()
     return row
 
@@ -500,9 +514,7 @@ def restore_entry(
         return row
     _check_version(row, expected_version)
     stamp = _now(now)
-    _record_revision(session, row, "restore", changed_by, stamp)
+    _claim_version(session, row, "restore", changed_by, stamp)
     row.deleted_at = None
-    row.updated_at = stamp
-    row.version += 1
     session.flush()
     return row
