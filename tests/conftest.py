@@ -187,10 +187,25 @@ def small_logbook(name: str, prefix: str, *, safety_pilot: str | None = None) ->
     }
 
 
+def reader_module() -> ModuleType:
+    """The interchange module to read logbooks with (real if present), without patching anything."""
+    try:
+        return importlib.import_module("planner.export.interchange")
+    except ModuleNotFoundError:
+        from tests.support import tiny_interchange
+
+        return tiny_interchange
+
+
 @pytest.fixture
 def demo_seed(tmp_path: Path) -> Path:
     """The real ``seed_demo/school.json`` with small test logbooks (three entries per pilot)."""
-    seed = tmp_path / "seed"
+    return build_demo_seed(tmp_path)
+
+
+def build_demo_seed(base: Path) -> Path:
+    """Write the test demo seed under ``base``; return its directory."""
+    seed = base / "seed"
     (seed / "logbooks").mkdir(parents=True)
     shutil.copy(REPO_ROOT / "seed_demo" / "school.json", seed / "school.json")
     school = json.loads((seed / "school.json").read_text(encoding="utf-8"))
