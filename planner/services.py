@@ -15,7 +15,6 @@ from pathlib import Path
 from typing import Any
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
-from sqlalchemy import select
 from sqlalchemy.orm import Session
 from werkzeug.security import generate_password_hash
 
@@ -67,15 +66,9 @@ def export_logbook(session: Session, pilot_id: int) -> Logbook:
 
 def list_pilots(session: Session) -> list[dict[str, Any]]:
     """Every pilot: ``id``, ``name``, ``email`` (None without an account), ``school`` (slug or None)."""
-    rows = session.execute(
-        select(models.Person, models.School.slug)
-        .outerjoin(models.School, models.Person.school_id == models.School.id)
-        .where(models.Person.is_pilot.is_(True))
-        .order_by(models.Person.id)
-    )
     return [
         {"id": person.id, "name": person.name, "email": person.email, "school": slug}
-        for person, slug in rows
+        for person, slug in repository.pilots_with_school(session)
     ]
 
 
@@ -279,7 +272,7 @@ def load_demo(
         where = f"airfields[{i}]"
         spec = seed.obj(spec, where, _AIRFIELD_KEYS, _AIRFIELD_KEYS)
         seed.zone(spec["timezone"], f"{where}.timezone")
-        row = session.scalars(select(models.Airfield).where(models.Airfield.ident == spec["ident"])).one_or_none()
+        row = repository.find_by(session, models.Airfield, ident=spec["ident"])
         if row is None:
             row = models.Airfield(**spec)
             session.add(row)
@@ -289,14 +282,14 @@ def load_demo(
         if ident is None:
             return None
         if ident not in airfields:
-            known = session.scalars(select(models.Airfield).where(models.Airfield.ident == ident)).one_or_none()
+            known = repository.find_by(session, models.Airfield, ident=ident)
             if known is None:
                 raise seed.fail(where, f"unknown airfield {ident!r}")
             airfields[ident] = known
         return airfields[ident]
 
     spec = seed.obj(doc["school"], "school", _SCHOOL_KEYS, {"slug", "name"})
-    school = session.scalars(select(models.School).where(models.School.slug == spec["slug"])).one_or_none()
+    school = repository.find_by(session, models.School, slug=spec["slug"])
     if school is None:
         school = models.School(
             slug=spec["slug"], name=spec["name"],
@@ -311,9 +304,7 @@ def load_demo(
         spec = seed.obj(spec, where, _AIRCRAFT_KEYS, {"registration", "category"})
         if spec["category"] not in CATEGORIES:
             raise seed.fail(f"{where}.category", f"must be one of {', '.join(CATEGORIES)}")
-        row = session.scalars(
-            select(models.Aircraft).where(models.Aircraft.registration == spec["registration"])
-        ).one_or_none()
+        row = repository.find_by(session, models.Aircraft, registration=spec["registration"])
         if row is None:
             row = models.Aircraft(
                 school_id=_flush_id(session, school),
@@ -335,9 +326,7 @@ def load_demo(
             raise seed.fail(f"{where}.kind", f"must be one of {', '.join(models.DEVICE_KINDS)}")
         if spec["category"] not in CATEGORIES:
             raise seed.fail(f"{where}.category", f"must be one of {', '.join(CATEGORIES)}")
-        row = session.scalars(
-            select(models.TrainingDevice).where(models.TrainingDevice.identifier == spec["identifier"])
-        ).one_or_none()
+        row = repository.find_by(session, models.TrainingDevice, identifier=spec["identifier"])
         if row is None:
             row = models.TrainingDevice(
                 school_id=_flush_id(session, school),
@@ -367,7 +356,7 @@ def load_demo(
             raise seed.fail(f"{where}.medical_class", f"must be one of {', '.join(models.MEDICAL_CLASSES)}")
         if spec.get("timezone") is not None:
             seed.zone(spec["timezone"], f"{where}.timezone")
-        person = session.scalars(select(models.Person).where(models.Person.email == spec["email"])).one_or_none()
+        person = repository.person_by_email(session, spec["email"])
         created = person is None
         if person is None:
             person = models.Person(
@@ -411,9 +400,7 @@ def load_demo(
             person.timezone = person.timezone or pilot.home_timezone
             person.instrument_categories = person.instrument_categories or list(pilot.instrument_categories)
             person.category_classes = person.category_classes or list(pilot.category_classes)
-        present = set(
-            session.scalars(select(models.Entry.external_id).where(models.Entry.pilot_id == person.id))
-        )
+        present = repository.entry_ids(session, person.id)
         missing = [e for e in logbook.entries if e.id not in present]
         if missing:
             repository.add_entries(session, person, missing, now=stamp)
@@ -436,21 +423,12 @@ def load_demo(
         if key not in table:
             raise seed.fail(f"{where}.{kind}", f"unknown {kind} {key!r} (not listed in this file)")
         subject_id = table[key].id
-        column = {
-            "person": models.AvailabilityWindow.person_id,
-            "aircraft": models.AvailabilityWindow.aircraft_id,
-            "device": models.AvailabilityWindow.device_id,
-        }[kind]
         for start, end in _windows(seed, spec, where):
             if end <= start:
                 raise seed.fail(where, "a window must end after it starts")
-            exists = session.scalars(
-                select(models.AvailabilityWindow.id).where(
-                    column == subject_id,
-                    models.AvailabilityWindow.starts_at == start,
-                    models.AvailabilityWindow.ends_at == end,
-                )
-            ).first()
+            exists = repository.find_by(
+                session, models.AvailabilityWindow, **{f"{kind}_id": subject_id}, starts_at=start, ends_at=end
+            )
             if exists is None:
                 session.add(
                     models.AvailabilityWindow(

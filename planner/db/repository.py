@@ -18,12 +18,16 @@ from collections.abc import Iterable, Sequence
 from datetime import UTC, date, datetime
 from typing import Any
 
-from sqlalchemy import select
+from typing import TypeVar
+
+from sqlalchemy import func, select
 from sqlalchemy.orm import Session, selectinload
 from sqlalchemy.orm.exc import StaleDataError
 
 from planner.core import logbook as core
 from planner.db import models
+
+Row = TypeVar("Row", bound=models.Base)
 
 # Core field name -> column name for hours (stored as integer hundredths).
 HOURS_COLUMNS = {
@@ -265,6 +269,34 @@ def find_entry(session: Session, pilot_id: int, external_id: str) -> models.Entr
     ).one_or_none()
 
 
+def find_by(session: Session, model: type[Row], **keys: Any) -> Row | None:
+    """The one row of ``model`` whose columns equal ``keys`` (a natural key), or None."""
+    return session.scalars(select(model).filter_by(**keys)).one_or_none()
+
+
+def person_by_email(session: Session, email: str) -> models.Person | None:
+    """The person with this email, compared without regard to case."""
+    return session.scalars(
+        select(models.Person).where(func.lower(models.Person.email) == email.strip().lower())
+    ).one_or_none()
+
+
+def pilots_with_school(session: Session) -> list[tuple[models.Person, str | None]]:
+    """Every person who keeps a logbook, with their school's slug, in id order."""
+    rows = session.execute(
+        select(models.Person, models.School.slug)
+        .outerjoin(models.School, models.Person.school_id == models.School.id)
+        .where(models.Person.is_pilot.is_(True))
+        .order_by(models.Person.id)
+    )
+    return [(person, slug) for person, slug in rows]
+
+
+def entry_ids(session: Session, pilot_id: int) -> set[str]:
+    """The interchange ids of all the pilot's entries, deleted ones included."""
+    return set(session.scalars(select(models.Entry.external_id).where(models.Entry.pilot_id == pilot_id)))
+
+
 def history(session: Session, row: models.Entry) -> list[models.EntryRevision]:
     """Earlier states of the entry, oldest first."""
     return list(
@@ -387,11 +419,7 @@ def add_entries(
             raise EntryRejected(entry.id, "id", "appears twice in the entries being added")
         seen.add(entry.id)
     if person.id is not None and seen:
-        existing = set(
-            session.scalars(
-                select(models.Entry.external_id).where(models.Entry.pilot_id == person.id)
-            )
-        )
+        existing = entry_ids(session, person.id)
         clash = sorted(seen & existing)
         if clash:
             more = f" (and {len(clash) - 1} more)" if len(clash) > 1 else ""

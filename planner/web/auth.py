@@ -7,12 +7,11 @@ from dataclasses import dataclass
 from flask import Blueprint, flash, redirect, render_template, request, session, url_for
 from flask_login import UserMixin, current_user, login_user, logout_user
 from flask_wtf import FlaskForm
-from sqlalchemy import func, select
 from werkzeug.security import check_password_hash
 from wtforms import EmailField, PasswordField, SubmitField
 from wtforms.validators import DataRequired, Length
 
-from planner.db import models
+from planner.db import models, repository
 
 bp = Blueprint("auth", __name__)
 
@@ -69,10 +68,7 @@ def login():  # type: ignore[no-untyped-def]
     form = LoginForm()
     error = None
     if form.validate_on_submit():
-        email = form.email.data.strip().lower()
-        person = db_session().scalars(
-            select(models.Person).where(func.lower(models.Person.email) == email)
-        ).one_or_none()
+        person = repository.person_by_email(db_session(), form.email.data)
         if person is not None and person.password_hash and check_password_hash(person.password_hash, form.password.data):
             session.clear()  # a fresh session at sign-in (no fixation)
             login_user(_account(person))
