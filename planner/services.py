@@ -1,14 +1,53 @@
 """Use cases: take a database session and plain arguments, load, call the core, stage writes.
 
 The caller owns the session and the transaction (one per web request, one
-per CLI command).
+per CLI command): nothing here commits, so an error anywhere leaves nothing
+behind once the caller rolls back.
 """
 
 from __future__ import annotations
 
-from sqlalchemy.orm import Session
+import json
+from collections.abc import Callable
+from dataclasses import dataclass
+from datetime import UTC, date, datetime, time, timedelta
+from pathlib import Path
+from typing import Any
+from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
-from planner.core.logbook import Logbook
+from sqlalchemy.orm import Session
+from werkzeug.security import generate_password_hash
+
+from planner.core.logbook import CATEGORIES, Logbook
+from planner.db import models, repository
+from planner.db.repository import EntryConflict, EntryRejected
+
+__all__ = [
+    "DemoAccount",
+    "EntryConflict",
+    "EntryRejected",
+    "SeedError",
+    "export_logbook",
+    "get_pilot",
+    "import_logbook",
+    "list_pilots",
+    "load_demo",
+    "load_logbook",
+]
+
+Progress = Callable[[str], None]
+
+
+def _quiet(_message: str) -> None:
+    pass
+
+
+def get_pilot(session: Session, pilot_id: int) -> models.Person:
+    """The person with id ``pilot_id`` who keeps a logbook; ``LookupError`` if there is none."""
+    person = session.get(models.Person, pilot_id)
+    if person is None or not person.is_pilot:
+        raise LookupError(f"no pilot with id {pilot_id}")
+    return person
 
 
 def load_logbook(session: Session, pilot_id: int) -> Logbook:
@@ -16,4 +55,398 @@ def load_logbook(session: Session, pilot_id: int) -> Logbook:
 
     Raises ``LookupError`` when there is no such pilot.
     """
-    raise NotImplementedError  # filled by the foundation work
+    person = get_pilot(session, pilot_id)
+    return repository.to_logbook(person, repository.current_entries(session, pilot_id))
+
+
+def export_logbook(session: Session, pilot_id: int) -> Logbook:
+    """What ``planner export`` writes: the pilot block and every current entry, oldest first."""
+    return load_logbook(session, pilot_id)
+
+
+def list_pilots(session: Session) -> list[dict[str, Any]]:
+    """Every pilot: ``id``, ``name``, ``email`` (None without an account), ``school`` (slug or None)."""
+    return [
+        {"id": person.id, "name": person.name, "email": person.email, "school": slug}
+        for person, slug in repository.pilots_with_school(session)
+    ]
+
+
+def import_logbook(
+    session: Session,
+    logbook: Logbook,
+    pilot_id: int | None = None,
+    *,
+    now: datetime | None = None,
+) -> int:
+    """Stage a logbook's entries; return the pilot's id.
+
+    Without ``pilot_id`` a new pilot is created from the logbook's pilot
+    block; with it, the entries are added to that pilot (the pilot block is
+    not applied). All or nothing: raises ``EntryRejected`` (naming the entry
+    and field) for a bad entry or an entry id the pilot already has, and
+    ``LookupError`` for an unknown pilot; the caller then rolls back.
+    """
+    stamp = now or datetime.now(UTC)
+    if pilot_id is None:
+        person = models.Person(
+            name=logbook.pilot.name,
+            is_pilot=True,
+            is_instructor=False,
+            is_admin=False,
+            certificate_level="none",
+            instructor_ratings=[],
+            rule_sets=[],
+            practice_targets={},
+            created_at=stamp,
+        )
+        repository.apply_pilot(person, logbook.pilot)
+        session.add(person)
+        session.flush()
+    else:
+        person = get_pilot(session, pilot_id)
+    repository.add_entries(session, person, list(logbook.entries), now=stamp)
+    return person.id
+
+
+# ---------------------------------------------------------------- demo scenario
+
+
+@dataclass(frozen=True)
+class DemoAccount:
+    """A demo sign-in: what ``planner demo`` prints."""
+
+    email: str
+    password: str
+    role: str  # "admin" | "instructor" | "pilot"
+    name: str
+    person_id: int
+
+
+class SeedError(ValueError):
+    """The demo scenario files are malformed; the message names the file and the key."""
+
+
+_ROLES = ("admin", "instructor", "pilot")
+_WEEKDAYS = ("mon", "tue", "wed", "thu", "fri", "sat", "sun")
+
+_TOP_KEYS = {"format", "school", "airfields", "aircraft", "devices", "people", "availability"}
+_SCHOOL_KEYS = {"slug", "name", "home_airfield"}
+_AIRFIELD_KEYS = {"ident", "name", "latitude", "longitude", "elevation_ft", "timezone"}
+_AIRCRAFT_KEYS = {"registration", "category", "class", "dual_controls", "equipment_notes", "home_airfield"}
+_DEVICE_KEYS = {"identifier", "kind", "category", "authorisation_expires", "notes"}
+_PERSON_KEYS = {
+    "slug", "name", "email", "password", "roles", "certificate_level", "category_classes",
+    "instrument_categories", "instructor_ratings", "medical_class", "medical_expires",
+    "basicmed_expires", "home_airfield", "timezone", "rule_sets", "practice_targets", "logbook",
+}
+_WINDOW_KEYS = {"person", "aircraft", "device", "timezone", "start", "end", "weekly", "note"}
+_WEEKLY_KEYS = {"days", "from", "to", "first_date", "last_date", "except"}
+SEED_FORMAT = "planner-demo-school/1"
+
+
+class _Seed:
+    """Strict reading of ``school.json``: unknown keys and bad values are errors naming the place."""
+
+    def __init__(self, path: Path) -> None:
+        self.path = path
+
+    def fail(self, where: str, problem: str) -> SeedError:
+        return SeedError(f"{self.path}: {where}: {problem}")
+
+    def obj(self, value: Any, where: str, allowed: set[str], required: set[str]) -> dict[str, Any]:
+        if not isinstance(value, dict):
+            raise self.fail(where, "must be an object")
+        unknown = sorted(set(value) - allowed)
+        if unknown:
+            raise self.fail(where, f"unknown key {unknown[0]!r} (allowed: {', '.join(sorted(allowed))})")
+        missing = sorted(required - set(value))
+        if missing:
+            raise self.fail(where, f"missing key {missing[0]!r}")
+        return value
+
+    def items(self, doc: dict[str, Any], key: str) -> list[Any]:
+        value = doc.get(key, [])
+        if not isinstance(value, list):
+            raise self.fail(key, "must be a list")
+        return value
+
+    def date(self, value: Any, where: str) -> date | None:
+        if value is None:
+            return None
+        try:
+            return date.fromisoformat(value)
+        except (TypeError, ValueError):
+            raise self.fail(where, f"must be a date YYYY-MM-DD, got {value!r}") from None
+
+    def zone(self, value: Any, where: str) -> ZoneInfo:
+        try:
+            return ZoneInfo(value)
+        except (TypeError, ValueError, ZoneInfoNotFoundError):
+            raise self.fail(where, f"must be an IANA time zone name, got {value!r}") from None
+
+    def clock(self, value: Any, where: str) -> time:
+        try:
+            return time.fromisoformat(value)
+        except (TypeError, ValueError):
+            raise self.fail(where, f"must be a local time HH:MM, got {value!r}") from None
+
+
+def _windows(seed: _Seed, spec: dict[str, Any], where: str) -> list[tuple[datetime, datetime]]:
+    """Expand one availability item into (start, end) UTC instants."""
+    zone = seed.zone(spec.get("timezone"), f"{where}.timezone")
+    if "weekly" in spec:
+        if "start" in spec or "end" in spec:
+            raise seed.fail(where, "give either weekly or start/end, not both")
+        weekly = seed.obj(spec["weekly"], f"{where}.weekly", _WEEKLY_KEYS, {"days", "from", "to", "first_date", "last_date"})
+        days = weekly["days"]
+        if not isinstance(days, list) or not days or any(d not in _WEEKDAYS for d in days):
+            raise seed.fail(f"{where}.weekly.days", f"must be a list of {', '.join(_WEEKDAYS)}")
+        start_t = seed.clock(weekly["from"], f"{where}.weekly.from")
+        end_t = seed.clock(weekly["to"], f"{where}.weekly.to")
+        first = seed.date(weekly["first_date"], f"{where}.weekly.first_date")
+        last = seed.date(weekly["last_date"], f"{where}.weekly.last_date")
+        skipped = {seed.date(d, f"{where}.weekly.except") for d in weekly.get("except", [])}
+        if first is None or last is None or last < first:
+            raise seed.fail(f"{where}.weekly", "last_date must not be before first_date")
+        out = []
+        day = first
+        while day <= last:
+            if _WEEKDAYS[day.weekday()] in days and day not in skipped:
+                out.append((
+                    datetime.combine(day, start_t, zone).astimezone(UTC),
+                    datetime.combine(day, end_t, zone).astimezone(UTC),
+                ))
+            day += timedelta(days=1)
+        return out
+    try:
+        start = datetime.fromisoformat(spec["start"]).replace(tzinfo=zone)
+        end = datetime.fromisoformat(spec["end"]).replace(tzinfo=zone)
+    except KeyError as exc:
+        raise seed.fail(where, f"missing key {exc.args[0]!r} (or give weekly)") from None
+    except (TypeError, ValueError):
+        raise seed.fail(where, "start and end must be local date-times YYYY-MM-DDTHH:MM") from None
+    return [(start.astimezone(UTC), end.astimezone(UTC))]
+
+
+def load_demo(
+    session: Session,
+    seed_dir: Path | str,
+    today: date,
+    *,
+    reader: Callable[[str], Logbook] | None = None,
+    progress: Progress = _quiet,
+) -> list[DemoAccount]:
+    """Load the demo scenario from ``seed_dir`` (``school.json`` + ``logbooks/<slug>.json``).
+
+    Idempotent: rows are found by their natural keys (school slug, airfield
+    ident, registration, device identifier, email, entry id, window bounds)
+    and only missing ones are added; existing rows are left as they are.
+    ``today`` stamps the rows created (no clock inside). ``reader`` turns a
+    logbook file's text into a ``Logbook`` (default:
+    ``planner.export.interchange.read_json``). Returns the demo accounts in
+    file order. Raises ``SeedError`` for malformed seed data; logbook errors
+    propagate from the reader.
+    """
+    seed_dir = Path(seed_dir)
+    if reader is None:
+        from planner.export import interchange  # lazy: the interchange module is optional here
+
+        reader = interchange.read_json
+    path = seed_dir / "school.json"
+    seed = _Seed(path)
+    try:
+        doc = json.loads(path.read_text(encoding="utf-8"))
+    except FileNotFoundError:
+        raise SeedError(f"{path}: not found") from None
+    except json.JSONDecodeError as exc:
+        raise SeedError(f"{path}: line {exc.lineno}: not valid JSON ({exc.msg})") from None
+    seed.obj(doc, "top level", _TOP_KEYS, {"format", "school", "airfields", "people"})
+    if doc["format"] != SEED_FORMAT:
+        raise seed.fail("format", f"must be {SEED_FORMAT!r}, got {doc['format']!r}")
+    stamp = datetime.combine(today, time(0), UTC)
+
+    # Airfields (shared reference data, keyed by our identifier).
+    airfields: dict[str, models.Airfield] = {}
+    for i, spec in enumerate(seed.items(doc, "airfields")):
+        where = f"airfields[{i}]"
+        spec = seed.obj(spec, where, _AIRFIELD_KEYS, _AIRFIELD_KEYS)
+        seed.zone(spec["timezone"], f"{where}.timezone")
+        row = repository.find_by(session, models.Airfield, ident=spec["ident"])
+        if row is None:
+            row = models.Airfield(**spec)
+            session.add(row)
+        airfields[spec["ident"]] = row
+
+    def airfield(ident: str | None, where: str) -> models.Airfield | None:
+        if ident is None:
+            return None
+        if ident not in airfields:
+            known = repository.find_by(session, models.Airfield, ident=ident)
+            if known is None:
+                raise seed.fail(where, f"unknown airfield {ident!r}")
+            airfields[ident] = known
+        return airfields[ident]
+
+    spec = seed.obj(doc["school"], "school", _SCHOOL_KEYS, {"slug", "name"})
+    school = repository.find_by(session, models.School, slug=spec["slug"])
+    if school is None:
+        school = models.School(
+            slug=spec["slug"], name=spec["name"],
+            home_airfield=airfield(spec.get("home_airfield"), "school.home_airfield"),
+        )
+        session.add(school)
+        progress(f"created school {spec['name']}")
+
+    aircraft: dict[str, models.Aircraft] = {}
+    for i, spec in enumerate(seed.items(doc, "aircraft")):
+        where = f"aircraft[{i}]"
+        spec = seed.obj(spec, where, _AIRCRAFT_KEYS, {"registration", "category"})
+        if spec["category"] not in CATEGORIES:
+            raise seed.fail(f"{where}.category", f"must be one of {', '.join(CATEGORIES)}")
+        row = repository.find_by(session, models.Aircraft, registration=spec["registration"])
+        if row is None:
+            row = models.Aircraft(
+                school_id=_flush_id(session, school),
+                registration=spec["registration"],
+                category=spec["category"],
+                aircraft_class=spec.get("class"),
+                dual_controls=bool(spec.get("dual_controls", False)),
+                equipment_notes=spec.get("equipment_notes", ""),
+                home_airfield=airfield(spec.get("home_airfield"), f"{where}.home_airfield"),
+            )
+            session.add(row)
+        aircraft[spec["registration"]] = row
+
+    devices: dict[str, models.TrainingDevice] = {}
+    for i, spec in enumerate(seed.items(doc, "devices")):
+        where = f"devices[{i}]"
+        spec = seed.obj(spec, where, _DEVICE_KEYS, {"identifier", "kind", "category"})
+        if spec["kind"] not in models.DEVICE_KINDS:
+            raise seed.fail(f"{where}.kind", f"must be one of {', '.join(models.DEVICE_KINDS)}")
+        if spec["category"] not in CATEGORIES:
+            raise seed.fail(f"{where}.category", f"must be one of {', '.join(CATEGORIES)}")
+        row = repository.find_by(session, models.TrainingDevice, identifier=spec["identifier"])
+        if row is None:
+            row = models.TrainingDevice(
+                school_id=_flush_id(session, school),
+                identifier=spec["identifier"],
+                kind=spec["kind"],
+                category=spec["category"],
+                authorisation_expires=seed.date(spec.get("authorisation_expires"), f"{where}.authorisation_expires"),
+                notes=spec.get("notes", ""),
+            )
+            session.add(row)
+        devices[spec["identifier"]] = row
+
+    # People first, so that logbook entries can link safety pilots and instructors by name.
+    accounts: list[DemoAccount] = []
+    people: dict[str, models.Person] = {}
+    logbooks: list[tuple[models.Person, Path, bool]] = []
+    for i, spec in enumerate(seed.items(doc, "people")):
+        where = f"people[{i}]"
+        spec = seed.obj(spec, where, _PERSON_KEYS, {"name", "email", "password", "roles"})
+        roles = spec["roles"]
+        if not isinstance(roles, list) or not roles or any(r not in _ROLES for r in roles):
+            raise seed.fail(f"{where}.roles", f"must be a non-empty list of {', '.join(_ROLES)}")
+        level = spec.get("certificate_level", "none")
+        if level not in models.CERTIFICATE_LEVELS:
+            raise seed.fail(f"{where}.certificate_level", f"must be one of {', '.join(models.CERTIFICATE_LEVELS)}")
+        if spec.get("medical_class") not in (None, *models.MEDICAL_CLASSES):
+            raise seed.fail(f"{where}.medical_class", f"must be one of {', '.join(models.MEDICAL_CLASSES)}")
+        if spec.get("timezone") is not None:
+            seed.zone(spec["timezone"], f"{where}.timezone")
+        person = repository.person_by_email(session, spec["email"])
+        created = person is None
+        if person is None:
+            person = models.Person(
+                school_id=_flush_id(session, school),
+                name=spec["name"],
+                email=spec["email"],
+                password_hash=generate_password_hash(spec["password"]),
+                is_admin="admin" in roles,
+                is_instructor="instructor" in roles,
+                is_pilot="pilot" in roles,
+                certificate_level=level,
+                category_classes=list(spec.get("category_classes", [])),
+                instrument_categories=list(spec.get("instrument_categories", [])),
+                instructor_ratings=list(spec.get("instructor_ratings", [])),
+                medical_class=spec.get("medical_class"),
+                medical_expires=seed.date(spec.get("medical_expires"), f"{where}.medical_expires"),
+                basicmed_expires=seed.date(spec.get("basicmed_expires"), f"{where}.basicmed_expires"),
+                home_airfield=airfield(spec.get("home_airfield"), f"{where}.home_airfield"),
+                timezone=spec.get("timezone"),
+                rule_sets=list(spec.get("rule_sets", [])),
+                practice_targets=dict(spec.get("practice_targets", {})),
+                created_at=stamp,
+            )
+            session.add(person)
+            session.flush()
+            progress(f"created {roles[0]} {spec['name']} <{spec['email']}>")
+        people[spec["email"]] = person
+        accounts.append(DemoAccount(spec["email"], spec["password"], roles[0], person.name, person.id))
+        if spec.get("logbook"):
+            logbooks.append((person, seed_dir / spec["logbook"], created))
+
+    for n, (person, logbook_path, created) in enumerate(logbooks, start=1):
+        try:
+            text = logbook_path.read_text(encoding="utf-8")
+        except FileNotFoundError:
+            raise SeedError(f"{logbook_path}: not found (logbook of {person.name})") from None
+        logbook = reader(text)
+        if created:
+            # Fill what the school file left out from the logbook's pilot block.
+            pilot = logbook.pilot
+            person.timezone = person.timezone or pilot.home_timezone
+            person.instrument_categories = person.instrument_categories or list(pilot.instrument_categories)
+            person.category_classes = person.category_classes or list(pilot.category_classes)
+        present = repository.entry_ids(session, person.id)
+        missing = [e for e in logbook.entries if e.id not in present]
+        if missing:
+            repository.add_entries(session, person, missing, now=stamp)
+        progress(
+            f"logbook {n}/{len(logbooks)} {person.name}: {len(missing)} entries added, "
+            f"{len(logbook.entries) - len(missing)} already present"
+        )
+
+    added = 0
+    session.flush()
+    for i, spec in enumerate(seed.items(doc, "availability")):
+        where = f"availability[{i}]"
+        spec = seed.obj(spec, where, _WINDOW_KEYS, {"timezone"})
+        subjects = [k for k in ("person", "aircraft", "device") if k in spec]
+        if len(subjects) != 1:
+            raise seed.fail(where, "name exactly one of person (email), aircraft (registration), device (identifier)")
+        kind = subjects[0]
+        key = spec[kind]
+        table = {"person": people, "aircraft": aircraft, "device": devices}[kind]
+        if key not in table:
+            raise seed.fail(f"{where}.{kind}", f"unknown {kind} {key!r} (not listed in this file)")
+        subject_id = table[key].id
+        for start, end in _windows(seed, spec, where):
+            if end <= start:
+                raise seed.fail(where, "a window must end after it starts")
+            exists = repository.find_by(
+                session, models.AvailabilityWindow, **{f"{kind}_id": subject_id}, starts_at=start, ends_at=end
+            )
+            if exists is None:
+                session.add(
+                    models.AvailabilityWindow(
+                        **{f"{kind}_id": subject_id},
+                        starts_at=start,
+                        ends_at=end,
+                        timezone=spec["timezone"],
+                        note=spec.get("note", ""),
+                    )
+                )
+                added += 1
+    session.flush()
+    progress(f"availability windows: {added} added")
+    return accounts
+
+
+def _flush_id(session: Session, row: Any) -> int:
+    """The row's primary key, flushing first if it is new."""
+    if row.id is None:
+        session.flush()
+    return row.id

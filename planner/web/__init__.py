@@ -1,0 +1,87 @@
+"""The web app: ``create_app(settings=None)``.
+
+One database session per request (closed at teardown); Flask-Login keeps
+the signed-in person's id in the signed session cookie; Flask-WTF puts a
+CSRF token on every form. Blueprints live in ``planner.web.<area>``.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from flask import Flask, g
+from flask_login import LoginManager
+from flask_wtf import CSRFProtect
+from sqlalchemy.orm import Session
+
+from planner import CAUTION
+from planner.config import REPO_ROOT, Settings
+from planner.db.session import make_engine, make_session_factory
+
+
+def db_session() -> Session:
+    """The current request's database session (opened on first use)."""
+    from flask import current_app
+
+    if "db_session" not in g:
+        g.db_session = current_app.extensions["planner.sessions"]()
+    return g.db_session
+
+
+def create_app(settings: Settings | None = None, **overrides: Any) -> Flask:
+    """Build the app for ``settings`` (default: from the environment); ``overrides`` go into app.config."""
+    settings = settings or Settings.from_env()
+    app = Flask(
+        __name__,
+        template_folder=str(REPO_ROOT / "templates"),
+        static_folder="static",
+    )
+    app.config.update(
+        SECRET_KEY=settings.secret_key,
+        SESSION_COOKIE_HTTPONLY=True,
+        SESSION_COOKIE_SAMESITE="Lax",
+        REMEMBER_COOKIE_HTTPONLY=True,
+        REMEMBER_COOKIE_SAMESITE="Lax",
+        WTF_CSRF_ENABLED=True,
+    )
+    app.config.update(overrides)
+
+    engine = make_engine(settings.database_url)
+    app.extensions["planner.engine"] = engine
+    app.extensions["planner.sessions"] = make_session_factory(engine)
+    app.extensions["planner.settings"] = settings
+
+    @app.teardown_appcontext
+    def _close_session(_exc: BaseException | None) -> None:
+        session = g.pop("db_session", None)
+        if session is not None:
+            session.close()
+
+    CSRFProtect(app)
+    login = LoginManager(app)
+    login.login_view = "auth.login"
+    login.login_message = "Please sign in to continue."
+
+    from planner.web import auth, home
+
+    login.user_loader(auth.load_account)
+    app.register_blueprint(auth.bp)
+    app.register_blueprint(home.bp)
+
+    @app.context_processor
+    def _caution() -> dict[str, str]:
+        return {"caution": CAUTION}
+
+    @app.after_request
+    def _headers(response):  # type: ignore[no-untyped-def]
+        # No inline scripts or third-party resources anywhere; refuse framing.
+        response.headers.setdefault(
+            "Content-Security-Policy",
+            "default-src 'self'; script-src 'self'; style-src 'self'; img-src 'self' data:; "
+            "frame-ancestors 'none'; form-action 'self'; base-uri 'self'",
+        )
+        response.headers.setdefault("X-Content-Type-Options", "nosniff")
+        response.headers.setdefault("Referrer-Policy", "same-origin")
+        return response
+
+    return app

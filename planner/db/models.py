@@ -1,0 +1,333 @@
+"""The tables. Every one is created by an Alembic revision in ``migrations/``.
+
+Conventions: singular class names, plural snake-case tables, ``<thing>_id``
+foreign keys. Hours are integer hundredths of an hour (``*_hundredths``).
+Instants are UTC (see ``UTCDateTime``); local dates are plain dates.
+A logbook is a legal record: entries are never overwritten or hard-deleted;
+each edit or delete stores the previous state in ``entry_revisions``.
+"""
+
+from __future__ import annotations
+
+from datetime import date, datetime
+from typing import Any
+
+from sqlalchemy import (
+    JSON,
+    Boolean,
+    CheckConstraint,
+    Date,
+    Float,
+    ForeignKey,
+    Index,
+    Integer,
+    String,
+    Text,
+    UniqueConstraint,
+)
+from sqlalchemy.orm import Mapped, mapped_column, relationship
+
+from planner.core.logbook import CATEGORIES, CONDITIONS, DEVICES
+from planner.db.base import Base, Count, Hundredths, Ident, Instant, JSONList, Name, UTCDateTime, intpk
+
+CERTIFICATE_LEVELS = ("none", "student", "sport", "recreational", "private", "commercial", "atp")
+MEDICAL_CLASSES = ("first", "second", "third")
+DEVICE_KINDS = ("ffs", "ftd", "atd")  # training devices; DEVICES adds "aircraft"
+REVISION_ACTIONS = ("edit", "delete", "restore")
+
+
+def _in(column: str, values: tuple[str, ...], nullable: bool = False) -> str:
+    """SQL for ``column IN (...)``, optionally allowing NULL."""
+    listed = ", ".join(f"'{v}'" for v in values)
+    clause = f"{column} IN ({listed})"
+    return f"{column} IS NULL OR {clause}" if nullable else clause
+
+
+class School(Base):
+    """A flight school or club: the boundary of who sees whose data."""
+
+    __tablename__ = "schools"
+
+    id: Mapped[intpk]
+    slug: Mapped[Ident] = mapped_column(unique=True)
+    name: Mapped[Name]
+    home_airfield_id: Mapped[int | None] = mapped_column(ForeignKey("airfields.id"))
+
+    home_airfield: Mapped[Airfield | None] = relationship()
+
+
+class Airfield(Base):
+    """An airfield under our own identifier, with what sun times and local dates need."""
+
+    __tablename__ = "airfields"
+    __table_args__ = (
+        CheckConstraint("latitude >= -90 AND latitude <= 90", name="latitude_range"),
+        CheckConstraint("longitude >= -180 AND longitude <= 180", name="longitude_range"),
+    )
+
+    id: Mapped[intpk]
+    ident: Mapped[str] = mapped_column(String(16), unique=True)
+    name: Mapped[Name]
+    latitude: Mapped[float] = mapped_column(Float)
+    longitude: Mapped[float] = mapped_column(Float)
+    elevation_ft: Mapped[int] = mapped_column(Integer)
+    timezone: Mapped[str] = mapped_column(String(64))  # IANA name
+
+
+class Person(Base):
+    """Anyone with an account or a logbook: pilot, instructor, school admin (several roles allowed)."""
+
+    __tablename__ = "people"
+    __table_args__ = (
+        CheckConstraint(_in("certificate_level", CERTIFICATE_LEVELS), name="certificate_level"),
+        CheckConstraint(_in("medical_class", MEDICAL_CLASSES, nullable=True), name="medical_class"),
+    )
+
+    id: Mapped[intpk]
+    school_id: Mapped[int | None] = mapped_column(ForeignKey("schools.id"), index=True)
+    name: Mapped[Name]
+    # NULL for a pilot created by an import, who has no account yet.
+    email: Mapped[str | None] = mapped_column(String(254), unique=True)
+    password_hash: Mapped[str | None] = mapped_column(String(255))
+    is_pilot: Mapped[bool] = mapped_column(Boolean, default=True)
+    is_instructor: Mapped[bool] = mapped_column(Boolean, default=False)
+    is_admin: Mapped[bool] = mapped_column(Boolean, default=False)
+    certificate_level: Mapped[str] = mapped_column(String(16), default="none")
+    # "category/class" strings, e.g. "airplane/single-engine-land".
+    category_classes: Mapped[JSONList]
+    instrument_categories: Mapped[JSONList]  # e.g. ["airplane"]
+    instructor_ratings: Mapped[JSONList]  # e.g. ["cfi", "cfii"]
+    medical_class: Mapped[str | None] = mapped_column(String(8))
+    medical_expires: Mapped[date | None] = mapped_column(Date)  # last valid day
+    basicmed_expires: Mapped[date | None] = mapped_column(Date)  # the alternative to a medical
+    home_airfield_id: Mapped[int | None] = mapped_column(ForeignKey("airfields.id"))
+    timezone: Mapped[str | None] = mapped_column(String(64))  # IANA name
+    rule_sets: Mapped[JSONList]  # names of the rule sets followed, e.g. ["faa-part61"]
+    # Personal practice targets (product choice, not regulation); shape owned by the planner.
+    practice_targets: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
+    created_at: Mapped[Instant]
+
+    school: Mapped[School | None] = relationship()
+    home_airfield: Mapped[Airfield | None] = relationship()
+
+    @property
+    def roles(self) -> tuple[str, ...]:
+        """The person's roles, in a fixed order."""
+        flags = (("admin", self.is_admin), ("instructor", self.is_instructor), ("pilot", self.is_pilot))
+        return tuple(name for name, held in flags if held)
+
+
+class Aircraft(Base):
+    """An aircraft a school flies."""
+
+    __tablename__ = "aircraft"
+    __table_args__ = (CheckConstraint(_in("category", CATEGORIES), name="category"),)
+
+    id: Mapped[intpk]
+    school_id: Mapped[int | None] = mapped_column(ForeignKey("schools.id"), index=True)
+    registration: Mapped[str] = mapped_column(String(16), unique=True)
+    category: Mapped[str] = mapped_column(String(16))
+    aircraft_class: Mapped[str | None] = mapped_column(String(32))  # e.g. "single-engine-land"
+    dual_controls: Mapped[bool] = mapped_column(Boolean, default=False)
+    equipment_notes: Mapped[str] = mapped_column(Text, default="")
+    home_airfield_id: Mapped[int | None] = mapped_column(ForeignKey("airfields.id"))
+
+    home_airfield: Mapped[Airfield | None] = relationship()
+
+
+class TrainingDevice(Base):
+    """A full flight simulator, flight training device or aviation training device."""
+
+    __tablename__ = "training_devices"
+    __table_args__ = (
+        CheckConstraint(_in("kind", DEVICE_KINDS), name="kind"),
+        CheckConstraint(_in("category", CATEGORIES), name="category"),
+    )
+
+    id: Mapped[intpk]
+    school_id: Mapped[int | None] = mapped_column(ForeignKey("schools.id"), index=True)
+    identifier: Mapped[str] = mapped_column(String(32), unique=True)
+    kind: Mapped[str] = mapped_column(String(8))
+    category: Mapped[str] = mapped_column(String(16))  # the aircraft category it represents
+    authorisation_expires: Mapped[date | None] = mapped_column(Date)  # last valid day
+    notes: Mapped[str] = mapped_column(Text, default="")
+
+
+_ENTRY_COUNTS = (
+    "unlogged_approaches",
+    "holds",
+    "landings",
+    "night_full_stop_landings",
+    "partial_panel_approaches",
+    "ua_nose_high",
+    "ua_nose_low",
+)
+_ENTRY_HOURS = (
+    "instrument_actual_hundredths",
+    "instrument_simulated_hundredths",
+    "total_hundredths",
+    "pic_hundredths",
+    "dual_received_hundredths",
+    "solo_hundredths",
+)
+
+
+class Entry(Base):
+    """One logbook entry (flight or device session), as the pilot logged it.
+
+    ``external_id`` is the interchange ``id``, unique per pilot. ``version``
+    counts saves (optimistic locking: a save from a stale copy is refused).
+    ``deleted_at`` marks a reversible delete.
+    """
+
+    __tablename__ = "entries"
+    __table_args__ = (
+        UniqueConstraint("pilot_id", "external_id"),
+        Index("ix_entries_pilot_id_date", "pilot_id", "date"),
+        CheckConstraint(_in("device", DEVICES), name="device"),
+        CheckConstraint(_in("category", CATEGORIES), name="category"),
+        CheckConstraint(_in("conditions", CONDITIONS, nullable=True), name="conditions"),
+        CheckConstraint("night_full_stop_landings <= landings", name="night_within_landings"),
+        CheckConstraint("NOT (aircraft_id IS NOT NULL AND device_id IS NOT NULL)", name="one_machine"),
+        CheckConstraint("version >= 1", name="version_positive"),
+        *(CheckConstraint(f"{c} >= 0", name=f"{c}_nonneg") for c in _ENTRY_COUNTS + _ENTRY_HOURS),
+    )
+
+    id: Mapped[intpk]
+    pilot_id: Mapped[int] = mapped_column(ForeignKey("people.id"))
+    external_id: Mapped[Ident]
+    date: Mapped[date] = mapped_column(Date)
+    device: Mapped[str] = mapped_column(String(16), default="aircraft")
+    category: Mapped[str] = mapped_column(String(16), default="airplane")
+    aircraft_class: Mapped[str | None] = mapped_column(String(32))
+    conditions: Mapped[str | None] = mapped_column(String(16))
+    unlogged_approaches: Mapped[Count]
+    holds: Mapped[Count]
+    course_tracking: Mapped[bool] = mapped_column(Boolean, default=False)
+    instrument_actual_hundredths: Mapped[Hundredths]
+    instrument_simulated_hundredths: Mapped[Hundredths]
+    landings: Mapped[Count]
+    night_full_stop_landings: Mapped[Count]
+    partial_panel_approaches: Mapped[Count]
+    ua_nose_high: Mapped[Count]
+    ua_nose_low: Mapped[Count]
+    # The name as logged, and a link when it matches a known person.
+    safety_pilot_name: Mapped[str | None] = mapped_column(String(200))
+    safety_pilot_id: Mapped[int | None] = mapped_column(ForeignKey("people.id"))
+    instructor_name: Mapped[str | None] = mapped_column(String(200))
+    instructor_id: Mapped[int | None] = mapped_column(ForeignKey("people.id"))
+    remarks: Mapped[str] = mapped_column(Text, default="")
+    # The registration or device identifier as logged, and a link when known.
+    aircraft_ident: Mapped[str | None] = mapped_column(String(32))
+    aircraft_id: Mapped[int | None] = mapped_column(ForeignKey("aircraft.id"))
+    device_id: Mapped[int | None] = mapped_column(ForeignKey("training_devices.id"))
+    route: Mapped[str | None] = mapped_column(String(200))
+    start_time: Mapped[str | None] = mapped_column(String(5))  # local "HH:MM"
+    end_time: Mapped[str | None] = mapped_column(String(5))
+    total_hundredths: Mapped[Hundredths]
+    pic_hundredths: Mapped[Hundredths]
+    dual_received_hundredths: Mapped[Hundredths]
+    solo_hundredths: Mapped[Hundredths]
+    version: Mapped[int] = mapped_column(Integer)
+    deleted_at: Mapped[datetime | None] = mapped_column(UTCDateTime())
+    created_at: Mapped[Instant]
+    updated_at: Mapped[Instant]
+
+    pilot: Mapped[Person] = relationship(foreign_keys=[pilot_id])
+    approaches: Mapped[list[Approach]] = relationship(
+        order_by="Approach.position", cascade="all, delete-orphan", back_populates="entry"
+    )
+    checks: Mapped[list[EntryCheck]] = relationship(
+        order_by="EntryCheck.position", cascade="all, delete-orphan", back_populates="entry"
+    )
+    revisions: Mapped[list[EntryRevision]] = relationship(
+        order_by="EntryRevision.version", back_populates="entry"
+    )
+
+    # The repository sets ``version`` itself; SQLAlchemy adds "AND version = <old>"
+    # to every UPDATE, so a save from a stale copy fails instead of overwriting.
+    __mapper_args__ = {"version_id_col": version, "version_id_generator": False}
+
+
+class Approach(Base):
+    """One logged approach of an entry, in the order logged."""
+
+    __tablename__ = "approaches"
+    __table_args__ = (
+        UniqueConstraint("entry_id", "position"),
+        CheckConstraint(_in("conditions", CONDITIONS, nullable=True), name="conditions"),
+        CheckConstraint("position >= 0", name="position_nonneg"),
+    )
+
+    id: Mapped[intpk]
+    entry_id: Mapped[int] = mapped_column(ForeignKey("entries.id", ondelete="CASCADE"))
+    position: Mapped[int] = mapped_column(Integer)
+    type: Mapped[str | None] = mapped_column(String(64))
+    airfield: Mapped[str | None] = mapped_column(String(64))  # as logged
+    runway: Mapped[str | None] = mapped_column(String(16))
+    conditions: Mapped[str | None] = mapped_column(String(16))  # NULL: as the entry
+    to_minimums: Mapped[bool] = mapped_column(Boolean, default=False)
+    coupled: Mapped[bool] = mapped_column(Boolean, default=False)
+
+    entry: Mapped[Entry] = relationship(back_populates="approaches")
+
+
+class EntryCheck(Base):
+    """A check passed on an entry: "ipc", "flight-review", "instrument-practical-test" or a rule-set kind."""
+
+    __tablename__ = "entry_checks"
+    __table_args__ = (
+        UniqueConstraint("entry_id", "position"),
+        CheckConstraint("kind <> ''", name="kind_not_empty"),
+    )
+
+    id: Mapped[intpk]
+    entry_id: Mapped[int] = mapped_column(ForeignKey("entries.id", ondelete="CASCADE"))
+    position: Mapped[int] = mapped_column(Integer)
+    kind: Mapped[str] = mapped_column(String(64), index=True)
+
+    entry: Mapped[Entry] = relationship(back_populates="checks")
+
+
+class EntryRevision(Base):
+    """The state of an entry before a change: ``snapshot`` is that state, ``version`` its version."""
+
+    __tablename__ = "entry_revisions"
+    __table_args__ = (
+        UniqueConstraint("entry_id", "version"),
+        CheckConstraint(_in("action", REVISION_ACTIONS), name="action"),
+    )
+
+    id: Mapped[intpk]
+    entry_id: Mapped[int] = mapped_column(ForeignKey("entries.id"), index=True)
+    version: Mapped[int] = mapped_column(Integer)
+    action: Mapped[str] = mapped_column(String(16))
+    snapshot: Mapped[dict[str, Any]] = mapped_column(JSON)
+    changed_at: Mapped[Instant]
+    changed_by_id: Mapped[int | None] = mapped_column(ForeignKey("people.id"))
+
+    entry: Mapped[Entry] = relationship(back_populates="revisions")
+
+
+class AvailabilityWindow(Base):
+    """When a person, an aircraft or a training device is available (UTC instants + display zone)."""
+
+    __tablename__ = "availability_windows"
+    __table_args__ = (
+        CheckConstraint(
+            "(person_id IS NOT NULL AND aircraft_id IS NULL AND device_id IS NULL)"
+            " OR (person_id IS NULL AND aircraft_id IS NOT NULL AND device_id IS NULL)"
+            " OR (person_id IS NULL AND aircraft_id IS NULL AND device_id IS NOT NULL)",
+            name="exactly_one_subject",
+        ),
+        CheckConstraint("ends_at > starts_at", name="ends_after_start"),
+    )
+
+    id: Mapped[intpk]
+    person_id: Mapped[int | None] = mapped_column(ForeignKey("people.id"), index=True)
+    aircraft_id: Mapped[int | None] = mapped_column(ForeignKey("aircraft.id"), index=True)
+    device_id: Mapped[int | None] = mapped_column(ForeignKey("training_devices.id"), index=True)
+    starts_at: Mapped[Instant]
+    ends_at: Mapped[Instant]
+    timezone: Mapped[str] = mapped_column(String(64))  # IANA zone the window was given in
+    note: Mapped[str] = mapped_column(Text, default="")

@@ -1,0 +1,548 @@
+"""Rows <-> core dataclasses, and the only ways to change a logbook entry.
+
+The core never sees ORM objects: ``to_logbook`` turns a person and their
+entry rows into a frozen ``planner.core.logbook.Logbook``. Writes go through
+``add_entries``, ``revise_entry``, ``delete_entry`` and ``restore_entry``,
+which validate first (so a bad value gets a message naming the entry and the
+field, not a constraint error), keep the previous state of every changed
+entry in ``entry_revisions`` and use the ``version`` column to refuse a
+change made from a stale copy. Nothing here commits: the caller owns the
+transaction.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import re
+from collections.abc import Iterable, Sequence
+from datetime import UTC, date, datetime
+from typing import Any
+
+from typing import TypeVar
+
+from sqlalchemy import func, select
+from sqlalchemy.orm import Session, selectinload
+from sqlalchemy.orm.exc import StaleDataError
+
+from planner.core import logbook as core
+from planner.db import models
+
+Row = TypeVar("Row", bound=models.Base)
+
+# Core field name -> column name for hours (stored as integer hundredths).
+HOURS_COLUMNS = {
+    "instrument_actual_hours": "instrument_actual_hundredths",
+    "instrument_simulated_hours": "instrument_simulated_hundredths",
+    "total_hours": "total_hundredths",
+    "pic_hours": "pic_hundredths",
+    "dual_received_hours": "dual_received_hundredths",
+    "solo_hours": "solo_hundredths",
+}
+COUNT_FIELDS = (
+    "unlogged_approaches",
+    "holds",
+    "landings",
+    "night_full_stop_landings",
+    "partial_panel_approaches",
+    "ua_nose_high",
+    "ua_nose_low",
+)
+# Core text field -> longest value the column holds.
+TEXT_LIMITS = {
+    "id": 64,
+    "aircraft_class": 32,
+    "safety_pilot": 200,
+    "instructor": 200,
+    "aircraft": 32,
+    "route": 200,
+}
+APPROACH_TEXT_LIMITS = {"type": 64, "airfield": 64, "runway": 16}
+MAX_COUNT = 2_000_000_000  # fits a 32-bit INTEGER column
+_TIME = re.compile(r"^([01]\d|2[0-3]):[0-5]\d$")
+
+
+class EntryRejected(ValueError):
+    """An entry that cannot be stored; the message names the entry id and the field."""
+
+    def __init__(self, entry_id: str, field: str, problem: str) -> None:
+        super().__init__(f"entry {entry_id!r}, field {field!r}: {problem}")
+        self.entry_id = entry_id
+        self.field = field
+
+
+class EntryConflict(RuntimeError):
+    """The entry changed since the caller read it (optimistic locking)."""
+
+
+def _now(now: datetime | None) -> datetime:
+    return now if now is not None else datetime.now(UTC)
+
+
+# ---------------------------------------------------------------- validation
+
+
+def to_hundredths(hours: float, entry_id: str = "?", field: str = "hours") -> int:
+    """Decimal hours -> integer hundredths; refuses negatives and finer precision."""
+    if isinstance(hours, bool) or not isinstance(hours, (int, float)):
+        raise EntryRejected(entry_id, field, f"must be a number of hours, got {hours!r}")
+    scaled = round(hours * 100)
+    if hours < 0:
+        raise EntryRejected(entry_id, field, f"must be >= 0, got {hours!r}")
+    if abs(hours * 100 - scaled) > 1e-6:
+        raise EntryRejected(entry_id, field, f"at most two decimals (hundredths of an hour), got {hours!r}")
+    if scaled > MAX_COUNT:
+        raise EntryRejected(entry_id, field, f"too large: {hours!r}")
+    return scaled
+
+
+def validate_entry(entry: core.Entry) -> None:
+    """Raise ``EntryRejected`` if ``entry`` breaks a rule the database also enforces."""
+    eid = entry.id
+    if not isinstance(entry.id, str) or not entry.id.strip():
+        raise EntryRejected(str(eid), "id", "must be a non-empty text")
+    if not isinstance(entry.date, date) or isinstance(entry.date, datetime):
+        raise EntryRejected(eid, "date", f"must be a date, got {entry.date!r}")
+    if entry.device not in core.DEVICES:
+        raise EntryRejected(eid, "device", f"must be one of {', '.join(core.DEVICES)}; got {entry.device!r}")
+    if entry.category not in core.CATEGORIES:
+        raise EntryRejected(
+            eid, "category", f"must be one of {', '.join(core.CATEGORIES)}; got {entry.category!r}"
+        )
+    if entry.conditions is not None and entry.conditions not in core.CONDITIONS:
+        raise EntryRejected(
+            eid, "conditions", f"must be one of {', '.join(core.CONDITIONS)}; got {entry.conditions!r}"
+        )
+    for name in COUNT_FIELDS:
+        value = getattr(entry, name)
+        if isinstance(value, bool) or not isinstance(value, int) or not 0 <= value <= MAX_COUNT:
+            raise EntryRejected(eid, name, f"must be a whole number >= 0, got {value!r}")
+    if entry.night_full_stop_landings > entry.landings:
+        raise EntryRejected(
+            eid,
+            "night_full_stop_landings",
+            f"{entry.night_full_stop_landings} is more than the {entry.landings} landings logged "
+            "(night full-stop landings are part of all landings)",
+        )
+    if entry.unlogged_approaches and entry.approaches:
+        raise EntryRejected(eid, "approaches", "give either a list of approaches or a number, not both")
+    for name in HOURS_COLUMNS:
+        to_hundredths(getattr(entry, name), eid, name)
+    for name, limit in TEXT_LIMITS.items():
+        value = getattr(entry, name)
+        if value is not None and len(value) > limit:
+            raise EntryRejected(eid, name, f"at most {limit} characters")
+    for name in ("start_time", "end_time"):
+        value = getattr(entry, name)
+        if value is not None and not _TIME.match(value):
+            raise EntryRejected(eid, name, f'must be local time "HH:MM", got {value!r}')
+    for i, appr in enumerate(entry.approaches, start=1):
+        if appr.conditions is not None and appr.conditions not in core.CONDITIONS:
+            raise EntryRejected(eid, f"approaches[{i}].conditions", f"must be actual or simulated, got {appr.conditions!r}")
+        for name, limit in APPROACH_TEXT_LIMITS.items():
+            value = getattr(appr, name)
+            if value is not None and len(value) > limit:
+                raise EntryRejected(eid, f"approaches[{i}].{name}", f"at most {limit} characters")
+    for i, kind in enumerate(entry.checks, start=1):
+        if not isinstance(kind, str) or not kind.strip() or len(kind) > 64:
+            raise EntryRejected(eid, f"checks[{i}]", f"must be a non-empty name of at most 64 characters, got {kind!r}")
+
+
+# ---------------------------------------------------------------- rows -> core
+
+
+def pilot_to_core(person: models.Person) -> core.Pilot:
+    """The engine's view of a person."""
+    return core.Pilot(
+        name=person.name,
+        home_timezone=person.timezone,
+        instrument_categories=tuple(person.instrument_categories or ()),
+        category_classes=tuple(person.category_classes or ()),
+    )
+
+
+def entry_to_core(row: models.Entry) -> core.Entry:
+    """One entry row (with its approaches and checks) as a core ``Entry``."""
+    hours = {name: getattr(row, column) / 100 for name, column in HOURS_COLUMNS.items()}
+    return core.Entry(
+        id=row.external_id,
+        date=row.date,
+        device=row.device,
+        category=row.category,
+        aircraft_class=row.aircraft_class,
+        conditions=row.conditions,
+        approaches=tuple(
+            core.Approach(
+                type=a.type,
+                airfield=a.airfield,
+                runway=a.runway,
+                to_minimums=a.to_minimums,
+                coupled=a.coupled,
+                conditions=a.conditions,
+            )
+            for a in row.approaches
+        ),
+        unlogged_approaches=row.unlogged_approaches,
+        holds=row.holds,
+        course_tracking=row.course_tracking,
+        landings=row.landings,
+        night_full_stop_landings=row.night_full_stop_landings,
+        partial_panel_approaches=row.partial_panel_approaches,
+        ua_nose_high=row.ua_nose_high,
+        ua_nose_low=row.ua_nose_low,
+        checks=tuple(c.kind for c in row.checks),
+        safety_pilot=row.safety_pilot_name,
+        instructor=row.instructor_name,
+        remarks=row.remarks,
+        aircraft=row.aircraft_ident,
+        route=row.route,
+        start_time=row.start_time,
+        end_time=row.end_time,
+        **hours,
+    )
+
+
+def to_logbook(person: models.Person, entries: Iterable[models.Entry]) -> core.Logbook:
+    """A person and entry rows as a core ``Logbook`` (deleted entries left out)."""
+    return core.Logbook(
+        pilot=pilot_to_core(person),
+        entries=tuple(entry_to_core(e) for e in entries if e.deleted_at is None),
+    )
+
+
+def entry_snapshot(row: models.Entry) -> dict[str, Any]:
+    """The entry's state as JSON-ready data: the core fields plus record-keeping columns."""
+    data = dataclasses.asdict(entry_to_core(row))
+    data["date"] = row.date.isoformat()
+    data["approaches"] = [dict(a) for a in data["approaches"]]
+    data["checks"] = list(data["checks"])
+    data["_record"] = {
+        "version": row.version,
+        "deleted_at": row.deleted_at.isoformat() if row.deleted_at else None,
+        "aircraft_id": row.aircraft_id,
+        "device_id": row.device_id,
+        "safety_pilot_id": row.safety_pilot_id,
+        "instructor_id": row.instructor_id,
+    }
+    return data
+
+
+def entry_from_snapshot(snapshot: dict[str, Any]) -> core.Entry:
+    """A revision's snapshot back as a core ``Entry`` (to show or restore an older state)."""
+    data = {k: v for k, v in snapshot.items() if not k.startswith("_")}
+    data["date"] = date.fromisoformat(data["date"])
+    data["approaches"] = tuple(core.Approach(**a) for a in data["approaches"])
+    data["checks"] = tuple(data["checks"])
+    return core.Entry(**data)
+
+
+# ---------------------------------------------------------------- queries
+
+
+def _entries_query(pilot_id: int, include_deleted: bool = False) -> Any:
+    query = (
+        select(models.Entry)
+        .where(models.Entry.pilot_id == pilot_id)
+        .options(selectinload(models.Entry.approaches), selectinload(models.Entry.checks))
+        .order_by(models.Entry.date, models.Entry.id)
+    )
+    if not include_deleted:
+        query = query.where(models.Entry.deleted_at.is_(None))
+    return query
+
+
+def current_entries(session: Session, pilot_id: int) -> list[models.Entry]:
+    """The pilot's entries that are not deleted, oldest first."""
+    return list(session.scalars(_entries_query(pilot_id)))
+
+
+def all_entries(session: Session, pilot_id: int) -> list[models.Entry]:
+    """All of the pilot's entries, deleted ones included, oldest first."""
+    return list(session.scalars(_entries_query(pilot_id, include_deleted=True)))
+
+
+def find_entry(session: Session, pilot_id: int, external_id: str) -> models.Entry | None:
+    """The pilot's entry with interchange id ``external_id`` (deleted or not), or None."""
+    return session.scalars(
+        select(models.Entry).where(
+            models.Entry.pilot_id == pilot_id, models.Entry.external_id == external_id
+        )
+    ).one_or_none()
+
+
+def find_by(session: Session, model: type[Row], **keys: Any) -> Row | None:
+    """The one row of ``model`` whose columns equal ``keys`` (a natural key), or None."""
+    return session.scalars(select(model).filter_by(**keys)).one_or_none()
+
+
+def person_by_email(session: Session, email: str) -> models.Person | None:
+    """The person with this email, compared without regard to case."""
+    return session.scalars(
+        select(models.Person).where(func.lower(models.Person.email) == email.strip().lower())
+    ).one_or_none()
+
+
+def pilots_with_school(session: Session) -> list[tuple[models.Person, str | None]]:
+    """Every person who keeps a logbook, with their school's slug, in id order."""
+    rows = session.execute(
+        select(models.Person, models.School.slug)
+        .outerjoin(models.School, models.Person.school_id == models.School.id)
+        .where(models.Person.is_pilot.is_(True))
+        .order_by(models.Person.id)
+    )
+    return [(person, slug) for person, slug in rows]
+
+
+def entry_ids(session: Session, pilot_id: int) -> set[str]:
+    """The interchange ids of all the pilot's entries, deleted ones included."""
+    return set(session.scalars(select(models.Entry.external_id).where(models.Entry.pilot_id == pilot_id)))
+
+
+def history(session: Session, row: models.Entry) -> list[models.EntryRevision]:
+    """Earlier states of the entry, oldest first."""
+    return list(
+        session.scalars(
+            select(models.EntryRevision)
+            .where(models.EntryRevision.entry_id == row.id)
+            .order_by(models.EntryRevision.version)
+        )
+    )
+
+
+# ---------------------------------------------------------------- writes
+
+
+class _Links:
+    """Finds the aircraft, device and people an entry's logged text refers to (cached per call)."""
+
+    def __init__(self, session: Session, school_id: int | None) -> None:
+        self.session = session
+        self.school_id = school_id
+        self._cache: dict[tuple[str, str], int | None] = {}
+
+    def aircraft(self, ident: str | None) -> int | None:
+        return self._lookup("aircraft", ident, models.Aircraft.registration, models.Aircraft.id)
+
+    def device(self, ident: str | None) -> int | None:
+        return self._lookup("device", ident, models.TrainingDevice.identifier, models.TrainingDevice.id)
+
+    def person(self, name: str | None) -> int | None:
+        # Only within the pilot's own school, and only when the name is unambiguous.
+        if not name or self.school_id is None:
+            return None
+        key = ("person", name)
+        if key not in self._cache:
+            ids = list(
+                self.session.scalars(
+                    select(models.Person.id).where(
+                        models.Person.school_id == self.school_id, models.Person.name == name
+                    )
+                )
+            )
+            self._cache[key] = ids[0] if len(ids) == 1 else None
+        return self._cache[key]
+
+    def _lookup(self, kind: str, ident: str | None, column: Any, pk: Any) -> int | None:
+        if not ident:
+            return None
+        key = (kind, ident)
+        if key not in self._cache:
+            self._cache[key] = self.session.scalars(select(pk).where(column == ident)).one_or_none()
+        return self._cache[key]
+
+
+def _fill(row: models.Entry, entry: core.Entry, links: _Links) -> None:
+    """Copy the core entry's values onto the row (approaches and checks included)."""
+    row.external_id = entry.id
+    row.date = entry.date
+    row.device = entry.device
+    row.category = entry.category
+    row.aircraft_class = entry.aircraft_class
+    row.conditions = entry.conditions
+    for name in COUNT_FIELDS:
+        setattr(row, name, getattr(entry, name))
+    row.course_tracking = entry.course_tracking
+    for name, column in HOURS_COLUMNS.items():
+        setattr(row, column, to_hundredths(getattr(entry, name), entry.id, name))
+    row.safety_pilot_name = entry.safety_pilot
+    row.safety_pilot_id = links.person(entry.safety_pilot)
+    row.instructor_name = entry.instructor
+    row.instructor_id = links.person(entry.instructor)
+    row.remarks = entry.remarks
+    row.aircraft_ident = entry.aircraft
+    if entry.device == "aircraft":
+        row.aircraft_id, row.device_id = links.aircraft(entry.aircraft), None
+    else:
+        row.aircraft_id, row.device_id = None, links.device(entry.aircraft)
+    row.route = entry.route
+    row.start_time = entry.start_time
+    row.end_time = entry.end_time
+    row.approaches = [
+        models.Approach(
+            position=i,
+            type=a.type,
+            airfield=a.airfield,
+            runway=a.runway,
+            conditions=a.conditions,
+            to_minimums=a.to_minimums,
+            coupled=a.coupled,
+        )
+        for i, a in enumerate(entry.approaches)
+    ]
+    row.checks = [models.EntryCheck(position=i, kind=k) for i, k in enumerate(entry.checks)]
+
+
+def apply_pilot(person: models.Person, pilot: core.Pilot) -> None:
+    """Copy a core ``Pilot`` block (name, home time zone, ratings) onto a person."""
+    person.name = pilot.name
+    person.timezone = pilot.home_timezone
+    person.instrument_categories = list(pilot.instrument_categories)
+    person.category_classes = list(pilot.category_classes)
+
+
+def add_entries(
+    session: Session,
+    person: models.Person,
+    entries: Sequence[core.Entry],
+    *,
+    now: datetime | None = None,
+) -> list[models.Entry]:
+    """Stage new entries for ``person`` (validated first; nothing is staged if one is bad).
+
+    Raises ``EntryRejected`` for a bad value or an id already in this pilot's
+    logbook (deleted entries included) or repeated in ``entries``.
+    """
+    for entry in entries:
+        validate_entry(entry)
+    seen: set[str] = set()
+    for entry in entries:
+        if entry.id in seen:
+            raise EntryRejected(entry.id, "id", "appears twice in the entries being added")
+        seen.add(entry.id)
+    if person.id is not None and seen:
+        existing = entry_ids(session, person.id)
+        clash = sorted(seen & existing)
+        if clash:
+            more = f" (and {len(clash) - 1} more)" if len(clash) > 1 else ""
+            raise EntryRejected(
+                clash[0], "id", f"already present in {person.name}'s logbook{more}; nothing was added"
+            )
+    stamp = _now(now)
+    links = _Links(session, person.school_id)
+    rows = []
+    for entry in entries:
+        row = models.Entry(pilot=person, version=1, created_at=stamp, updated_at=stamp, deleted_at=None)
+        _fill(row, entry, links)
+        session.add(row)
+        rows.append(row)
+    session.flush()
+    return rows
+
+
+def _claim_version(
+    session: Session, row: models.Entry, action: str, changed_by: models.Person | None, stamp: datetime
+) -> None:
+    """Bump the version (UPDATE ... WHERE version = <old>) and record the state before the change.
+
+    The guarded UPDATE runs first, so a save from a session holding an older
+    copy fails here with ``EntryConflict`` before anything else is written.
+    The caller must then roll the session back.
+    """
+    before = entry_snapshot(row)
+    old_version, external_id = row.version, row.external_id
+    row.version = old_version + 1
+    row.updated_at = stamp
+    try:
+        session.flush()
+    except StaleDataError:
+        raise EntryConflict(
+            f"entry {external_id!r} was changed by someone else since it was loaded; "
+            "reload it and apply your change again"
+        ) from None
+    session.add(
+        models.EntryRevision(
+            entry_id=row.id,
+            version=old_version,
+            action=action,
+            snapshot=before,
+            changed_at=stamp,
+            changed_by_id=changed_by.id if changed_by is not None else None,
+        )
+    )
+
+
+def _check_version(row: models.Entry, expected_version: int | None) -> None:
+    if expected_version is not None and row.version != expected_version:
+        raise EntryConflict(
+            f"entry {row.external_id!r} was changed elsewhere (now version {row.version}, "
+            f"you edited version {expected_version}); reload it and apply your change again"
+        )
+
+
+def revise_entry(
+    session: Session,
+    row: models.Entry,
+    new: core.Entry,
+    *,
+    expected_version: int | None = None,
+    changed_by: models.Person | None = None,
+    now: datetime | None = None,
+) -> models.Entry:
+    """Replace the entry's content with ``new``, keeping the previous state as a revision.
+
+    The entry keeps its id (``new.id`` must match). Raises ``EntryRejected``
+    for bad values, ``EntryConflict`` when ``expected_version`` is stale, and
+    refuses to edit a deleted entry (restore it first).
+    """
+    validate_entry(new)
+    if new.id != row.external_id:
+        raise EntryRejected(new.id, "id", f"an edit keeps the entry's id ({row.external_id!r})")
+    if row.deleted_at is not None:
+        raise EntryRejected(row.external_id, "id", "the entry is deleted; restore it before editing")
+    _check_version(row, expected_version)
+    stamp = _now(now)
+    _claim_version(session, row, "edit", changed_by, stamp)
+    # Remove the old approach/check rows first: their (entry_id, position) would clash with the new ones.
+    row.approaches.clear()
+    row.checks.clear()
+    session.flush()
+    _fill(row, new, _Links(session, row.pilot.school_id))
+    session.flush()
+    return row
+
+
+def delete_entry(
+    session: Session,
+    row: models.Entry,
+    *,
+    expected_version: int | None = None,
+    changed_by: models.Person | None = None,
+    now: datetime | None = None,
+) -> models.Entry:
+    """Mark the entry deleted (reversible with ``restore_entry``); the row and its history stay."""
+    if row.deleted_at is not None:
+        return row
+    _check_version(row, expected_version)
+    stamp = _now(now)
+    _claim_version(session, row, "delete", changed_by, stamp)
+    row.deleted_at = stamp
+    session.flush()
+    return row
+
+
+def restore_entry(
+    session: Session,
+    row: models.Entry,
+    *,
+    expected_version: int | None = None,
+    changed_by: models.Person | None = None,
+    now: datetime | None = None,
+) -> models.Entry:
+    """Undo a delete."""
+    if row.deleted_at is None:
+        return row
+    _check_version(row, expected_version)
+    stamp = _now(now)
+    _claim_version(session, row, "restore", changed_by, stamp)
+    row.deleted_at = None
+    session.flush()
+    return row

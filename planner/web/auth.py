@@ -1,0 +1,89 @@
+"""Sign-in and sign-out."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from flask import Blueprint, flash, redirect, render_template, request, session, url_for
+from flask_login import UserMixin, current_user, login_user, logout_user
+from flask_wtf import FlaskForm
+from werkzeug.security import check_password_hash
+from wtforms import EmailField, PasswordField, SubmitField
+from wtforms.validators import DataRequired, Length
+
+from planner.db import models, repository
+
+bp = Blueprint("auth", __name__)
+
+
+@dataclass(frozen=True)
+class Account(UserMixin):
+    """The signed-in person as the web layer sees them (no ORM object kept across requests)."""
+
+    id: int
+    name: str
+    email: str
+    roles: tuple[str, ...]
+    school_id: int | None
+
+    def get_id(self) -> str:
+        return str(self.id)
+
+
+def _account(person: models.Person) -> Account:
+    return Account(person.id, person.name, person.email or "", person.roles, person.school_id)
+
+
+def load_account(user_id: str) -> Account | None:
+    """Flask-Login's user loader: the person behind the session, if they still exist."""
+    from planner.web import db_session
+
+    try:
+        person = db_session().get(models.Person, int(user_id))
+    except ValueError:
+        return None
+    return _account(person) if person is not None and person.password_hash else None
+
+
+class LoginForm(FlaskForm):
+    email = EmailField("Email", validators=[DataRequired(), Length(max=254)])
+    password = PasswordField("Password", validators=[DataRequired(), Length(max=200)])
+    submit = SubmitField("Sign in")
+
+
+def _safe_next(target: str | None) -> str:
+    # Only same-site paths, never "//host" or "scheme://".
+    if target and target.startswith("/") and not target.startswith("//") and "\\" not in target:
+        return target
+    return url_for("home.index")
+
+
+@bp.route("/login", methods=["GET", "POST"])
+def login():  # type: ignore[no-untyped-def]
+    """Show the sign-in form; sign the person in when the email and password match."""
+    from planner.web import db_session
+
+    if current_user.is_authenticated:
+        return redirect(url_for("home.index"))
+    form = LoginForm()
+    error = None
+    if form.validate_on_submit():
+        person = repository.person_by_email(db_session(), form.email.data)
+        if person is not None and person.password_hash and check_password_hash(person.password_hash, form.password.data):
+            session.clear()  # a fresh session at sign-in (no fixation)
+            login_user(_account(person))
+            return redirect(_safe_next(request.args.get("next")))
+        error = "That email and password do not match an account."
+    elif request.method == "POST":
+        error = "Please give your email and password."
+    status = 200 if error is None else 401
+    return render_template("auth/login.html", form=form, error=error), status
+
+
+@bp.route("/logout", methods=["POST"])
+def logout():  # type: ignore[no-untyped-def]
+    """Sign out (POST with the CSRF token, so another site cannot sign you out)."""
+    logout_user()
+    session.clear()
+    flash("You are signed out.")
+    return redirect(url_for("auth.login"))

@@ -1,0 +1,142 @@
+"""Sign-in and the minimal home page (Flask test client)."""
+
+from __future__ import annotations
+
+import html
+import re
+import shutil
+from datetime import date
+from pathlib import Path
+
+import pytest
+from flask import Flask
+from flask.testing import FlaskClient
+
+from planner import CAUTION, services
+from planner.config import Settings
+from planner.db import migrate
+from planner.db.session import make_engine, make_session_factory
+from planner.web import create_app
+from tests.conftest import build_demo_seed, reader_module
+
+MARA = ("mara.oyelaran@juniper-ridge.example", "juniper-pilot-mara")
+
+
+@pytest.fixture(scope="module")
+def demo_database(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """A SQLite file with the demo loaded, built once per module (password hashing is slow on purpose)."""
+    base = tmp_path_factory.mktemp("web-demo")
+    path = base / "demo.sqlite3"
+    url = f"sqlite:///{path}"
+    migrate.upgrade(url)
+    engine = make_engine(url)
+    with make_session_factory(engine)() as s:
+        services.load_demo(s, build_demo_seed(base), date(2026, 12, 1), reader=reader_module().read_json)
+        s.commit()
+    engine.dispose()
+    return path
+
+
+@pytest.fixture
+def app(demo_database: Path, tmp_path: Path):  # type: ignore[no-untyped-def]
+    path = tmp_path / "web.sqlite3"
+    shutil.copy(demo_database, path)  # each test gets its own copy
+    settings = Settings(database_url=f"sqlite:///{path}", secret_key="test-secret", instance_dir=tmp_path, seed_dir=tmp_path)
+    app = create_app(settings, TESTING=True)
+    yield app
+    app.extensions["planner.engine"].dispose()
+
+
+@pytest.fixture
+def client(app: Flask) -> FlaskClient:
+    return app.test_client()
+
+
+def _csrf(page: str) -> str:
+    match = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page) or re.search(
+        r'type="hidden" name="csrf_token" value="([^"]+)"', page
+    )
+    assert match, "no CSRF token in the page"
+    return match.group(1)
+
+
+def _sign_in(client: FlaskClient, email: str, password: str):  # type: ignore[no-untyped-def]
+    token = _csrf(client.get("/login").get_data(as_text=True))
+    return client.post("/login", data={"email": email, "password": password, "csrf_token": token})
+
+
+def test_login_page_has_a_csrf_token_and_the_caution(client: FlaskClient) -> None:
+    response = client.get("/login")
+    page = response.get_data(as_text=True)
+    assert response.status_code == 200
+    assert len(_csrf(page)) > 20
+    footer = page.split("<footer", 1)[1]
+    assert html.escape(CAUTION) in footer
+
+
+def test_the_home_page_needs_a_signed_in_person(client: FlaskClient) -> None:
+    response = client.get("/")
+    assert response.status_code == 302 and "/login" in response.headers["Location"]
+
+
+def test_sign_in_with_a_demo_password_shows_the_name_and_the_caution(client: FlaskClient) -> None:
+    response = _sign_in(client, *MARA)
+    assert response.status_code == 302
+    cookie = response.headers["Set-Cookie"]
+    assert "HttpOnly" in cookie and "SameSite=Lax" in cookie
+    page = client.get("/").get_data(as_text=True)
+    assert "Mara Oyelaran" in page
+    assert html.escape(CAUTION) in page.split("<footer", 1)[1]
+
+
+def test_email_is_matched_without_regard_to_case(client: FlaskClient) -> None:
+    assert _sign_in(client, MARA[0].upper(), MARA[1]).status_code == 302
+
+
+def test_a_wrong_password_redisplays_the_form_with_a_message(client: FlaskClient) -> None:
+    response = _sign_in(client, MARA[0], "not-the-password")
+    page = response.get_data(as_text=True)
+    assert response.status_code == 401
+    assert "do not match an account" in page
+    assert MARA[0] in page  # what was typed is kept
+    assert 'name="password"' in page and "not-the-password" not in page
+    assert client.get("/").status_code == 302
+
+
+def test_a_post_without_the_csrf_token_is_refused(client: FlaskClient) -> None:
+    client.get("/login")
+    response = client.post("/login", data={"email": MARA[0], "password": MARA[1]})
+    assert response.status_code == 400
+    assert client.get("/").status_code == 302
+
+
+def test_sign_out_needs_a_post_and_ends_the_session(client: FlaskClient) -> None:
+    _sign_in(client, *MARA)
+    page = client.get("/").get_data(as_text=True)
+    assert client.get("/logout").status_code == 405
+    response = client.post("/logout", data={"csrf_token": _csrf(page)})
+    assert response.status_code == 302
+    assert client.get("/").status_code == 302
+
+
+def test_next_parameter_cannot_send_the_user_off_site(client: FlaskClient) -> None:
+    token = _csrf(client.get("/login").get_data(as_text=True))
+    response = client.post(
+        "/login?next=//evil.example/", data={"email": MARA[0], "password": MARA[1], "csrf_token": token}
+    )
+    assert response.status_code == 302 and response.headers["Location"] == "/"
+
+
+def test_pages_forbid_framing_and_inline_scripts(client: FlaskClient) -> None:
+    headers = client.get("/login").headers
+    assert "frame-ancestors 'none'" in headers["Content-Security-Policy"]
+    assert "'unsafe-inline'" not in headers["Content-Security-Policy"]
+    assert headers["X-Content-Type-Options"] == "nosniff"
+
+
+def test_the_stylesheet_is_served_locally(client: FlaskClient) -> None:
+    page = client.get("/login").get_data(as_text=True)
+    assert "http://" not in page and "https://" not in page
+    response = client.get("/static/style.css")
+    response.close()  # static files are streamed from an open file
+    assert response.status_code == 200 and response.mimetype == "text/css"
