@@ -6,7 +6,6 @@ import importlib
 import json
 import os
 import shutil
-import sys
 import uuid
 from collections.abc import Iterator
 from pathlib import Path
@@ -72,8 +71,7 @@ def _pg_admin() -> Engine:
 def pg_url(request: pytest.FixtureRequest) -> Iterator[str]:
     """A fresh, empty PostgreSQL database for this test module, dropped afterwards.
 
-    Skipped (reported as skipped) when no server answers, unless ``CI`` is set:
-    then a missing server is a failure.
+    A missing server is a failure, never a skip: the test command starts it.
     """
     import sqlalchemy as sa
 
@@ -84,9 +82,7 @@ def pg_url(request: pytest.FixtureRequest) -> Iterator[str]:
             conn.execute(sa.text(f'CREATE DATABASE "{name}"'))
     except sa.exc.OperationalError as exc:
         admin.dispose()
-        if os.environ.get("CI"):
-            pytest.fail(f"PostgreSQL is required in CI and is not reachable: {exc}")
-        pytest.skip(f"PostgreSQL not reachable at {PG_ADMIN_URL}")
+        pytest.fail(f"PostgreSQL is required and is not reachable at {PG_ADMIN_URL}: {exc}")
     url = PG_ADMIN_URL.rsplit("/", 1)[0] + f"/{name}"
     try:
         yield url
@@ -120,18 +116,9 @@ def any_engine(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[Engin
 
 
 @pytest.fixture
-def interchange(monkeypatch: pytest.MonkeyPatch) -> ModuleType:
-    """``planner.export.interchange``: the real module when present, else the tiny test stand-in."""
-    try:
-        return importlib.import_module("planner.export.interchange")
-    except ModuleNotFoundError:
-        from tests.support import tiny_interchange
-
-        import planner.export
-
-        monkeypatch.setitem(sys.modules, "planner.export.interchange", tiny_interchange)
-        monkeypatch.setattr(planner.export, "interchange", tiny_interchange, raising=False)
-        return tiny_interchange
+def interchange() -> ModuleType:
+    """``planner.export.interchange``, the module under test elsewhere."""
+    return importlib.import_module("planner.export.interchange")
 
 
 def small_logbook(name: str, prefix: str, *, safety_pilot: str | None = None) -> dict:
@@ -188,13 +175,8 @@ def small_logbook(name: str, prefix: str, *, safety_pilot: str | None = None) ->
 
 
 def reader_module() -> ModuleType:
-    """The interchange module to read logbooks with (real if present), without patching anything."""
-    try:
-        return importlib.import_module("planner.export.interchange")
-    except ModuleNotFoundError:
-        from tests.support import tiny_interchange
-
-        return tiny_interchange
+    """The interchange module to read logbooks with."""
+    return importlib.import_module("planner.export.interchange")
 
 
 @pytest.fixture

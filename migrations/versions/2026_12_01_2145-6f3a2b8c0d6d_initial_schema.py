@@ -146,7 +146,7 @@ def upgrade() -> None:
     sa.Column('instructor_name', sa.String(length=200), nullable=True),
     sa.Column('instructor_id', sa.Integer(), nullable=True),
     sa.Column('remarks', sa.Text(), nullable=False),
-    sa.Column('aircraft_ident', sa.String(length=32), nullable=True),
+    sa.Column('aircraft_ident', sa.String(length=64), nullable=True),
     sa.Column('aircraft_id', sa.Integer(), nullable=True),
     sa.Column('device_id', sa.Integer(), nullable=True),
     sa.Column('route', sa.String(length=200), nullable=True),

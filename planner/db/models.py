@@ -218,7 +218,7 @@ class Entry(Base):
     instructor_id: Mapped[int | None] = mapped_column(ForeignKey("people.id"))
     remarks: Mapped[str] = mapped_column(Text, default="")
     # The registration or device identifier as logged, and a link when known.
-    aircraft_ident: Mapped[str | None] = mapped_column(String(32))
+    aircraft_ident: Mapped[str | None] = mapped_column(String(64))
     aircraft_id: Mapped[int | None] = mapped_column(ForeignKey("aircraft.id"))
     device_id: Mapped[int | None] = mapped_column(ForeignKey("training_devices.id"))
     route: Mapped[str | None] = mapped_column(String(200))

@@ -53,7 +53,7 @@ TEXT_LIMITS = {
     "aircraft_class": 32,
     "safety_pilot": 200,
     "instructor": 200,
-    "aircraft": 32,
+    "aircraft": 64,
     "route": 200,
 }
 APPROACH_TEXT_LIMITS = {"type": 64, "airfield": 64, "runway": 16}
