@@ -38,9 +38,10 @@ def _run(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]
 
 
 @pytest.fixture
-def demo_db(db: str, demo_seed: Path, interchange, capsys: pytest.CaptureFixture[str]) -> str:  # type: ignore[no-untyped-def]
+def demo_db(db: str, capsys: pytest.CaptureFixture[str]) -> str:
+    """A database holding the real demo scenario from seed_demo/."""
     assert _run(capsys, "init")[0] == 0
-    assert _run(capsys, "demo", "--seed-dir", str(demo_seed))[0] == 0
+    assert _run(capsys, "demo")[0] == 0
     return db
 
 
@@ -101,20 +102,22 @@ def test_pilots_without_json_prints_a_table(demo_db: str, capsys: pytest.Capture
     assert len(lines) == 7 and "Rafael Okonkwo-Berg" in out
 
 
+@pytest.mark.parametrize("fmt", ["json", "csv"])
 def test_export_import_export_is_byte_identical(
-    demo_db: str, tmp_path: Path, sqlite_url: str, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
+    fmt: str, demo_db: str, tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]
 ) -> None:
     pilots = json.loads(_run(capsys, "pilots", "--json")[1])
-    first = tmp_path / "first.json"
+    assert len(pilots) == 6
+    first = tmp_path / f"first.{fmt}"
     for pilot in pilots:
-        assert _run(capsys, "export", "--pilot", str(pilot["id"]), "-o", str(first))[0] == 0
+        assert _run(capsys, "export", "--pilot", str(pilot["id"]), "--format", fmt, "-o", str(first))[0] == 0
         fresh = f"sqlite:///{tmp_path / ('fresh-' + str(pilot['id']) + '.sqlite3')}"
         monkeypatch.setenv("PLANNER_DATABASE_URL", fresh)
         _run(capsys, "init")
         status, out, _ = _run(capsys, "import", str(first))
         assert status == 0
         new_id = int(out.strip())
-        status, second, _ = _run(capsys, "export", "--pilot", str(new_id))
+        status, second, _ = _run(capsys, "export", "--pilot", str(new_id), "--format", fmt)
         assert status == 0
         assert second.encode("utf-8") == first.read_bytes()
         monkeypatch.setenv("PLANNER_DATABASE_URL", demo_db)
@@ -143,10 +146,11 @@ def test_import_of_ids_already_present_is_refused_and_changes_nothing(
     mara = json.loads(_run(capsys, "pilots", "--json")[1])[0]
     doc = small_logbook("Mara Oyelaran", "mara")
     doc["entries"].insert(0, {"id": "brand-new", "date": "2026-11-30", "holds": 1})
+    doc["entries"][1]["id"] = "mara-2025-06-13"  # already in her demo logbook
     before = _counts(demo_db)
     status, _, err = _run(capsys, "import", str(_write(tmp_path / "again.json", doc)), "--pilot", str(mara["id"]))
     assert status == 2
-    assert "'mara-1'" in err and "already present" in err
+    assert "'mara-2025-06-13'" in err and "already present" in err
     assert _counts(demo_db) == before
 
 
