@@ -32,6 +32,8 @@ class Settings:
     secret_key: str
     instance_dir: Path
     seed_dir: Path
+    # Pin "today" (ISO date) for demos and tests; None reads the clock in the pilot's time zone.
+    today: str | None = None
 
     @classmethod
     def from_env(cls, environ: Mapping[str, str] | None = None) -> Settings:
@@ -44,7 +46,13 @@ class Settings:
             url = f"sqlite:///{instance_dir / 'planner.sqlite3'}"
         secret = env.get("PLANNER_SECRET_KEY") or _persisted_secret(instance_dir)
         seed_dir = Path(env.get("PLANNER_SEED_DIR") or REPO_ROOT / "seed_demo")
-        return cls(database_url=url, secret_key=secret, instance_dir=instance_dir, seed_dir=seed_dir)
+        return cls(
+            database_url=url,
+            secret_key=secret,
+            instance_dir=instance_dir,
+            seed_dir=seed_dir,
+            today=env.get("PLANNER_TODAY") or None,
+        )
 
 
 def _persisted_secret(instance_dir: Path) -> str:

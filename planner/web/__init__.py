@@ -7,7 +7,9 @@ CSRF token on every form. Blueprints live in ``planner.web.<area>``.
 
 from __future__ import annotations
 
+from datetime import date, datetime
 from typing import Any
+from zoneinfo import ZoneInfo
 
 from flask import Flask, g
 from flask_login import LoginManager
@@ -28,6 +30,20 @@ def db_session() -> Session:
     return g.db_session
 
 
+def today(timezone: str | None) -> date:
+    """Today's date in ``timezone`` (IANA name; UTC when None).
+
+    The only place the web app reads the clock. Tests and demos pin it with
+    the ``PLANNER_TODAY`` config key (an ISO date).
+    """
+    from flask import current_app
+
+    pinned = current_app.config.get("PLANNER_TODAY")
+    if pinned:
+        return date.fromisoformat(str(pinned))
+    return datetime.now(ZoneInfo(timezone or "UTC")).date()
+
+
 def create_app(settings: Settings | None = None, **overrides: Any) -> Flask:
     """Build the app for ``settings`` (default: from the environment); ``overrides`` go into app.config."""
     settings = settings or Settings.from_env()
@@ -44,6 +60,8 @@ def create_app(settings: Settings | None = None, **overrides: Any) -> Flask:
         REMEMBER_COOKIE_SAMESITE="Lax",
         WTF_CSRF_ENABLED=True,
     )
+    if settings.today:
+        app.config["PLANNER_TODAY"] = settings.today
     app.config.update(overrides)
 
     engine = make_engine(settings.database_url)
@@ -62,11 +80,12 @@ def create_app(settings: Settings | None = None, **overrides: Any) -> Flask:
     login.login_view = "auth.login"
     login.login_message = "Please sign in to continue."
 
-    from planner.web import auth, home
+    from planner.web import admin, auth, dashboard, logbook, school
+    from planner.web import settings as settings_area
 
     login.user_loader(auth.load_account)
-    app.register_blueprint(auth.bp)
-    app.register_blueprint(home.bp)
+    for area in (auth, dashboard, logbook, school, settings_area, admin):
+        app.register_blueprint(area.bp)
 
     @app.context_processor
     def _caution() -> dict[str, str]:

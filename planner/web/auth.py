@@ -29,6 +29,18 @@ class Account(UserMixin):
     def get_id(self) -> str:
         return str(self.id)
 
+    @property
+    def is_pilot(self) -> bool:
+        return "pilot" in self.roles
+
+    @property
+    def is_instructor(self) -> bool:
+        return "instructor" in self.roles
+
+    @property
+    def is_admin(self) -> bool:
+        return "admin" in self.roles
+
 
 def _account(person: models.Person) -> Account:
     return Account(person.id, person.name, person.email or "", person.roles, person.school_id)
@@ -55,7 +67,7 @@ def _safe_next(target: str | None) -> str:
     # Only same-site paths, never "//host" or "scheme://".
     if target and target.startswith("/") and not target.startswith("//") and "\\" not in target:
         return target
-    return url_for("home.index")
+    return url_for("dashboard.index")
 
 
 @bp.route("/login", methods=["GET", "POST"])
@@ -64,7 +76,7 @@ def login():  # type: ignore[no-untyped-def]
     from planner.web import db_session
 
     if current_user.is_authenticated:
-        return redirect(url_for("home.index"))
+        return redirect(url_for("dashboard.index"))
     form = LoginForm()
     error = None
     if form.validate_on_submit():
