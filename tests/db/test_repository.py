@@ -102,7 +102,7 @@ def test_hours_finer_than_hundredths_are_refused_naming_entry_and_field(session:
         ({"start_time": "25:00"}, "start_time"),
         ({"unlogged_approaches": 2}, "approaches"),
         ({"checks": ("ipc", "")}, "checks[2]"),
-        ({"aircraft": "X" * 33}, "aircraft"),
+        ({"aircraft": "X" * 65}, "aircraft"),
     ],
 )
 def test_bad_values_are_refused_before_the_database_sees_them(session: Session, change: dict, field: str) -> None:
