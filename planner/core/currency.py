@@ -35,6 +35,7 @@ from __future__ import annotations
 from bisect import bisect_left, bisect_right
 from dataclasses import dataclass, field
 from datetime import date
+from operator import attrgetter
 from typing import Iterable, Sequence
 
 from planner.core import rules as r
@@ -210,15 +211,20 @@ def _hundredths(hours: float) -> int:
     return round(hours * 100)
 
 
-def units_on(entry: Entry, unit: str, conditions: str, hand_flown_only: bool = False) -> tuple[int, tuple[str, ...]]:
+def units_on(
+    entry: Entry, unit: str, conditions: str, hand_flown_only: bool = False, entry_condition: tuple | None = None
+) -> tuple[int, tuple[str, ...]]:
     """Creditable amount of ``unit`` on ``entry`` (hundredths of an hour for hour units),
-    and the reasons any logged work of that unit was not credited."""
+    and the reasons any logged work of that unit was not credited.
+
+    ``entry_condition`` may pass a precomputed ``_instrument_condition(entry)``.
+    """
     problems: list[str] = []
     if unit == r.APPROACHES:
         count = 0
         entry_cond = entry_problem = None
         if conditions != r.CONDITIONS_ANY:
-            entry_cond, entry_problem = _instrument_condition(entry)
+            entry_cond, entry_problem = entry_condition or _instrument_condition(entry)
         named = bool(entry.safety_pilot or entry.instructor)
         for i, ap in enumerate(entry.approaches, start=1):
             if not (ap.type and ap.airfield):
@@ -274,7 +280,7 @@ def units_on(entry: Entry, unit: str, conditions: str, hand_flown_only: bool = F
     else:  # pragma: no cover - the loader refuses unknown units
         raise ValueError(f"unknown task unit {unit!r}")
     if amount and conditions != r.CONDITIONS_ANY:
-        cond, problem = _instrument_condition(entry)
+        cond, problem = entry_condition or _instrument_condition(entry)
         if problem:
             return 0, (problem,)
         if not _condition_ok(cond, conditions):
@@ -331,11 +337,12 @@ class _Index:
     """
 
     def __init__(self, entries: Iterable[Entry]):
-        self.entries: list[Entry] = sorted(entries, key=lambda e: (e.date, e.id))
+        self.entries: list[Entry] = sorted(entries, key=attrgetter("date", "id"))
         self.ords: list[int] = [e.date.toordinal() for e in self.entries]
         self._buckets: dict[tuple, tuple[int, dict]] = {}
         self._checks: list[tuple[int, int]] | None = None
         self.series_cache: dict[tuple, _TaskSeries] = {}
+        self._conds: dict[int, tuple] = {}
 
     def upto(self, day_ord: int) -> int:
         """Number of entries dated on or before the ordinal ``day_ord``."""
@@ -375,10 +382,14 @@ class _Index:
                 rows = [(i, 1) for i, _ in rows]
         else:
             rows = []
+            conds = self._conds
             for i in range(lo, hi):
                 e = entries[i]
                 if _may_have(e, unit):
-                    amount = units_on(e, unit, conditions, hand)[0]
+                    c = conds.get(i)
+                    if c is None:
+                        c = conds[i] = _instrument_condition(e)
+                    amount = units_on(e, unit, conditions, hand, c)[0]
                     if amount:
                         rows.append((i, amount))
         for i, amount in rows:
@@ -723,7 +734,6 @@ class _Judged:
     def _series(self, task: r.Task, window: Window) -> _TaskSeries:
         lo = max(self.lower, task.entries_from.toordinal() if task.entries_from else -_INF)
         hi = min(self.limit_ord, task.entries_until.toordinal() if task.entries_until else _INF)
-        parts = []
         first = bisect_left(self.index.ords, lo) if lo > -_INF else 0
         buckets = self.index.buckets(task.unit, task.conditions, task.hand_flown_only, first)
         chosen = tuple(
@@ -862,7 +872,10 @@ class _Judged:
         spans: list[tuple[int, int]] = []
         for (path, series), (lo, hi, simple) in zip(self.paths, self._path_bounds):
             if simple:
-                e = min(s.tail_end(day) for s in series)
+                if len(series) == 1:
+                    e = series[0].tail_end(day)
+                else:
+                    e = min(s.tail_end(day) for s in series)
                 start = day if day > lo else lo
                 if e > hi:
                     e = hi
