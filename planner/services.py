@@ -8,6 +8,7 @@ behind once the caller rolls back.
 from __future__ import annotations
 
 import json
+import re
 from collections.abc import Callable
 from dataclasses import dataclass
 from datetime import UTC, date, datetime, time, timedelta
@@ -450,3 +451,131 @@ def _flush_id(session: Session, row: Any) -> int:
     if row.id is None:
         session.flush()
     return row.id
+
+
+# ---------------------------------------------------------------- school people (admin area)
+
+
+class PersonRejected(ValueError):
+    """A person's details that cannot be stored; ``field`` names the form field."""
+
+    def __init__(self, field: str, problem: str) -> None:
+        super().__init__(f"{field}: {problem}")
+        self.field = field
+        self.problem = problem
+
+
+@dataclass(frozen=True)
+class PersonDetails:
+    """What a school admin types about a person (lists already split, dates parsed)."""
+
+    name: str
+    email: str
+    is_pilot: bool
+    is_instructor: bool
+    is_admin: bool
+    certificate_level: str = "none"
+    category_classes: tuple[str, ...] = ()
+    instrument_categories: tuple[str, ...] = ()
+    instructor_ratings: tuple[str, ...] = ()
+    medical_class: str | None = None
+    medical_expires: date | None = None
+    basicmed_expires: date | None = None
+    home_airfield_id: int | None = None
+    timezone: str | None = None
+
+
+MIN_PASSWORD_LENGTH = 10
+_WORD = re.compile(r"^[a-z0-9]+(?:-[a-z0-9]+)*$")
+
+
+def _check_details(session: Session, details: PersonDetails, person_id: int | None) -> None:
+    if not details.name.strip():
+        raise PersonRejected("name", "give the person's name")
+    if not (details.is_pilot or details.is_instructor or details.is_admin):
+        raise PersonRejected("is_pilot", "give at least one role")
+    other = repository.person_by_email(session, details.email)
+    if other is not None and other.id != person_id:
+        raise PersonRejected("email", "another account already uses this email")
+    if details.certificate_level not in models.CERTIFICATE_LEVELS:
+        raise PersonRejected("certificate_level", f"must be one of {', '.join(models.CERTIFICATE_LEVELS)}")
+    if details.medical_class not in (None, *models.MEDICAL_CLASSES):
+        raise PersonRejected("medical_class", f"must be one of {', '.join(models.MEDICAL_CLASSES)}")
+    if details.medical_expires is not None and details.medical_class is None:
+        raise PersonRejected("medical_class", "give the class of the medical certificate that runs to this date")
+    for pair in details.category_classes:
+        category, _, cls = pair.partition("/")
+        if category not in CATEGORIES or not _WORD.match(cls):
+            raise PersonRejected(
+                "category_classes",
+                f"{pair!r} is not category/class (category one of {', '.join(CATEGORIES)}; e.g. airplane/single-engine-land)",
+            )
+    for category in details.instrument_categories:
+        if category not in CATEGORIES:
+            raise PersonRejected("instrument_categories", f"{category!r} is not one of {', '.join(CATEGORIES)}")
+    for rating in details.instructor_ratings:
+        if not _WORD.match(rating) or len(rating) > 32:
+            raise PersonRejected("instructor_ratings", f"{rating!r}: use lowercase words joined by hyphens, e.g. cfii")
+    if details.timezone is not None:
+        try:
+            ZoneInfo(details.timezone)
+        except (ValueError, ZoneInfoNotFoundError):
+            raise PersonRejected("timezone", f"{details.timezone!r} is not an IANA time zone name (e.g. America/Denver)") from None
+    if details.home_airfield_id is not None and session.get(models.Airfield, details.home_airfield_id) is None:
+        raise PersonRejected("home_airfield", "unknown airfield")
+
+
+def _apply_details(person: models.Person, details: PersonDetails) -> None:
+    person.name = details.name.strip()
+    person.email = details.email.strip()
+    person.is_pilot = details.is_pilot
+    person.is_instructor = details.is_instructor
+    person.is_admin = details.is_admin
+    person.certificate_level = details.certificate_level
+    person.category_classes = list(details.category_classes)
+    person.instrument_categories = list(details.instrument_categories)
+    person.instructor_ratings = list(details.instructor_ratings)
+    person.medical_class = details.medical_class
+    person.medical_expires = details.medical_expires
+    person.basicmed_expires = details.basicmed_expires
+    person.home_airfield_id = details.home_airfield_id
+    person.timezone = details.timezone
+
+
+def _check_password(password: str) -> None:
+    if len(password) < MIN_PASSWORD_LENGTH:
+        raise PersonRejected("password", f"use at least {MIN_PASSWORD_LENGTH} characters")
+
+
+def create_person(
+    session: Session, school_id: int, details: PersonDetails, password: str, *, now: datetime | None = None
+) -> models.Person:
+    """Stage a new person of the school with a hashed initial password; ``PersonRejected`` names the bad field."""
+    _check_details(session, details, None)
+    _check_password(password)
+    person = models.Person(
+        school_id=school_id,
+        password_hash=generate_password_hash(password),
+        rule_sets=["faa-part61"] if details.is_pilot else [],
+        practice_targets={},
+        created_at=now or datetime.now(UTC),
+    )
+    _apply_details(person, details)
+    session.add(person)
+    session.flush()
+    return person
+
+
+def update_person(
+    session: Session, person: models.Person, details: PersonDetails, password: str | None = None
+) -> models.Person:
+    """Change a person's details (and password, when one is given); ``PersonRejected`` names the bad field."""
+    _check_details(session, details, person.id)
+    if person.is_pilot and not details.is_pilot and repository.entry_ids(session, person.id):
+        raise PersonRejected("is_pilot", "this person keeps a logbook; the pilot role stays")
+    if password:
+        _check_password(password)
+        person.password_hash = generate_password_hash(password)
+    _apply_details(person, details)
+    session.flush()
+    return person
