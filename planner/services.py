@@ -579,3 +579,44 @@ def update_person(
     _apply_details(person, details)
     session.flush()
     return person
+
+
+# ---------------------------------------------------------------- sign-in throttling
+
+
+@dataclass(frozen=True)
+class ThrottlePolicy:
+    """After ``max_failures`` failed sign-ins within ``window`` for one email from one address, refuse for ``lockout``."""
+
+    max_failures: int = 5
+    window: timedelta = timedelta(minutes=15)
+    lockout: timedelta = timedelta(minutes=15)
+
+
+def _throttle_key(email: str, address: str | None) -> tuple[str, str]:
+    return email.strip().lower()[:254], (address or "unknown")[:64]
+
+
+def sign_in_locked_until(session: Session, email: str, address: str | None, now: datetime) -> datetime | None:
+    """When the lockout of (email, address) ends, or None if sign-in may be tried now."""
+    row = repository.sign_in_throttle(session, *_throttle_key(email, address))
+    if row is not None and row.locked_until is not None and row.locked_until > now:
+        return row.locked_until
+    return None
+
+
+def record_sign_in_failure(
+    session: Session, email: str, address: str | None, now: datetime, policy: ThrottlePolicy = ThrottlePolicy()
+) -> datetime | None:
+    """Count a failed sign-in; return the end of the lockout it starts (None while under the limit)."""
+    row = repository.count_sign_in_failure(session, *_throttle_key(email, address), now, now - policy.window)
+    if row.failures >= policy.max_failures:
+        row.locked_until = now + policy.lockout
+        session.flush()
+        return row.locked_until
+    return None
+
+
+def record_sign_in_success(session: Session, email: str, address: str | None) -> None:
+    """A successful sign-in clears the failures of (email, address)."""
+    repository.clear_sign_in_failures(session, *_throttle_key(email, address))

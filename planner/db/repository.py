@@ -22,6 +22,7 @@ from typing import TypeVar
 
 from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session, selectinload
+from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm.exc import StaleDataError
 
 from planner.core import logbook as core
@@ -649,3 +650,50 @@ def school_people(session: Session, school_id: int | None) -> list[models.Person
 def all_airfields(session: Session) -> list[models.Airfield]:
     """Every airfield, by identifier."""
     return list(session.scalars(select(models.Airfield).order_by(models.Airfield.ident)))
+
+
+# ---------------------------------------------------------------- sign-in throttling
+
+
+def sign_in_throttle(session: Session, email: str, address: str) -> models.SignInThrottle | None:
+    """The failure counter for (email, address), if any."""
+    return session.scalars(
+        select(models.SignInThrottle).where(
+            models.SignInThrottle.email == email, models.SignInThrottle.address == address
+        )
+    ).one_or_none()
+
+
+def count_sign_in_failure(session: Session, email: str, address: str, now: datetime, window_start_before: datetime) -> models.SignInThrottle:
+    """Add one failure to (email, address); a counter whose window began before ``window_start_before`` starts over.
+
+    The increment is done by the database (``failures = failures + 1``) so that
+    concurrent workers do not lose counts; a counter created at the same moment
+    by another worker is picked up after a unique-constraint clash.
+    """
+    row = sign_in_throttle(session, email, address)
+    if row is None:
+        session.add(models.SignInThrottle(email=email, address=address, failures=0, window_started_at=now))
+        try:
+            session.flush()
+        except IntegrityError:
+            session.rollback()
+        row = sign_in_throttle(session, email, address)
+        assert row is not None
+    if row.window_started_at < window_start_before:
+        row.failures = 0
+        row.window_started_at = now
+        row.locked_until = None
+        session.flush()
+    row.failures = models.SignInThrottle.failures + 1  # type: ignore[assignment]
+    session.flush()
+    session.refresh(row)
+    return row
+
+
+def clear_sign_in_failures(session: Session, email: str, address: str) -> None:
+    """Forget the failures of (email, address) after a successful sign-in."""
+    row = sign_in_throttle(session, email, address)
+    if row is not None:
+        session.delete(row)
+        session.flush()
