@@ -552,3 +552,11 @@ def test_bytes_that_are_not_utf8_never_answer_500(client: FlaskClient, app: Flas
     body = f"csrf_token={token}&date=2026-11-28&remarks=%FF%FE&route=%C3&approaches-0-type=%ED%A0%80&save=Save"
     response = client.post(f"/pilots/{pid}/logbook/new", data=body, content_type="application/x-www-form-urlencoded")
     assert response.status_code in (302, 422)
+
+
+def test_pressing_enter_in_a_field_saves_rather_than_adding_a_row(client: FlaskClient, app: Flask) -> None:
+    act_as(client, app, "pilot")
+    page = client.get(f"/pilots/{person_id(app, 'pilot')}/logbook/new").get_data(as_text=True)
+    form = page.split('id="entry-form"', 1)[1]
+    first_submit = re.search(r'<(?:button|input)[^>]*type="submit"[^>]*>', form).group(0)
+    assert 'name="save"' in first_submit
