@@ -11,6 +11,7 @@ import json
 import re
 from collections.abc import Callable
 from dataclasses import dataclass
+from functools import lru_cache
 from datetime import UTC, date, datetime, time, timedelta
 from pathlib import Path
 from typing import Any
@@ -19,6 +20,7 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 from sqlalchemy.orm import Session
 from werkzeug.security import generate_password_hash
 
+from planner.core import logbook as core_logbook
 from planner.core.logbook import CATEGORIES, Logbook
 from planner.db import models, repository
 from planner.db.repository import EntryConflict, EntryRejected
@@ -620,3 +622,28 @@ def record_sign_in_failure(
 def record_sign_in_success(session: Session, email: str, address: str | None) -> None:
     """A successful sign-in clears the failures of (email, address)."""
     repository.clear_sign_in_failures(session, *_throttle_key(email, address))
+
+
+# ---------------------------------------------------------------- credit feedback for the entry form
+
+
+@lru_cache(maxsize=64)
+def _builtin_rule_sets(names: tuple[str, ...]) -> tuple[Any, ...]:
+    from planner import rulesets
+
+    return tuple(rulesets.resolve(list(names)))
+
+
+def rule_sets_for(person: models.Person) -> tuple[Any, ...]:
+    """The built-in rule sets the person follows (names that are not built-in are left out, never read as paths)."""
+    from planner import rulesets
+
+    names = tuple(n for n in dict.fromkeys(person.rule_sets or []) if n in rulesets.builtin_names())
+    return _builtin_rule_sets(names) if names else ()
+
+
+def explain_entry(person: models.Person, entry: core_logbook.Entry) -> list[Any]:
+    """What ``entry`` would count toward for ``person`` under their rule sets (``planner.core.credit.CreditNote`` list)."""
+    from planner.core import credit
+
+    return credit.explain(entry, repository.pilot_to_core(person), rule_sets_for(person))

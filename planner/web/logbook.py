@@ -14,6 +14,7 @@ from typing import Any
 from flask import Blueprint, abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
+from planner import services
 from planner.core import logbook as core
 from planner.db import models, repository
 from planner.export import interchange
@@ -187,8 +188,10 @@ def _sentence(text: str) -> str:
 
 
 def _credit_notes(entry: core.Entry | None, pilot: models.Person) -> list[Any] | None:
-    """What the entry will count toward (None: not available; filled in by the credit explainer once the engine is merged)."""
-    return None
+    """What the entry will count toward for the pilot (the engine's own crediting; None when there is no entry)."""
+    if entry is None:
+        return None
+    return services.explain_entry(pilot, entry)
 
 
 def _render_form(form: forms.EntryForm, pilot: models.Person, *, row: models.Entry | None, status: int = 200,

@@ -560,3 +560,66 @@ def test_pressing_enter_in_a_field_saves_rather_than_adding_a_row(client: FlaskC
     form = page.split('id="entry-form"', 1)[1]
     first_submit = re.search(r'<(?:button|input)[^>]*type="submit"[^>]*>', form).group(0)
     assert 'name="save"' in first_submit
+
+
+# ------------------------------------------------------------------ credit feedback
+
+
+def test_check_shows_what_the_entry_counts_toward_and_saves_nothing(client: FlaskClient, app: Flask) -> None:
+    act_as(client, app, "pilot")
+    pid = person_id(app, "pilot")
+    before = entry_count(app, pid)
+    response = post_form(client, f"/pilots/{pid}/logbook/new", form_data(save=None, check="Check"))
+    page = html.unescape(response.get_data(as_text=True))
+    assert response.status_code == 200
+    # 14 CFR 61.57(c): the two approaches, the hold and the course tracking count (a safety pilot is named).
+    assert re.search(r"<strong>Counts:</strong> Instrument experience[^<]*: 2 approaches, 1 holding procedure, "
+                     r"course interception and tracking", page)
+    assert "Does not count:" not in page
+    assert entry_count(app, pid) == before
+
+
+def test_check_explains_why_simulated_work_without_a_safety_pilot_does_not_count(client: FlaskClient, app: Flask) -> None:
+    act_as(client, app, "pilot")
+    pid = person_id(app, "pilot")
+    data = form_data(save=None, check="Check", safety_pilot="", **{"approaches-1-type": ""})
+    page = html.unescape(post_form(client, f"/pilots/{pid}/logbook/new", data).get_data(as_text=True))
+    # 14 CFR 91.109(c) (safety pilot) and 61.51(g) (type and place of each approach).
+    assert "<strong>Does not count:</strong> Approach 1: simulated instrument work in an aircraft with neither safety pilot nor instructor" in page
+    assert "Approach 2 has no type or airfield logged" in page
+    assert not re.search(r"<strong>Counts:</strong> Instrument experience", page)
+
+
+def test_the_credit_endpoint_answers_a_fragment_for_the_form_as_typed(client: FlaskClient, app: Flask) -> None:
+    act_as(client, app, "pilot")
+    pid = person_id(app, "pilot")
+    response = post_form(client, f"/pilots/{pid}/logbook/credit", form_data(save=None), page_url=f"/pilots/{pid}/logbook/new")
+    fragment = html.unescape(response.get_data(as_text=True))
+    assert response.status_code == 200
+    assert "<html" not in fragment and "Counts:</strong> Instrument experience" in fragment
+    bad = post_form(client, f"/pilots/{pid}/logbook/credit", form_data(save=None, holds="x"), page_url=f"/pilots/{pid}/logbook/new")
+    assert bad.status_code == 200 and "Not checked yet" in bad.get_data(as_text=True)
+    assert client.post(f"/pilots/{pid}/logbook/credit", data=form_data(save=None)).status_code == 400  # no CSRF token
+    assert entry_count(app, pid) == 3
+
+
+def test_the_entry_page_shows_what_the_saved_entry_counts_toward(client: FlaskClient, app: Flask) -> None:
+    act_as(client, app, "pilot")
+    pid = person_id(app, "pilot")
+    location = post_form(client, f"/pilots/{pid}/logbook/new", form_data()).headers["Location"]
+    page = html.unescape(client.get(location).get_data(as_text=True))
+    assert "Counts:</strong> Instrument experience" in page
+    assert "Counts:</strong> Carrying passengers (takeoffs and landings)" in page  # 14 CFR 61.57(a): 2 landings logged
+    assert "2 landings" in page
+
+
+def test_the_form_loads_its_script_from_the_site_only(client: FlaskClient, app: Flask) -> None:
+    act_as(client, app, "pilot")
+    page = client.get(f"/pilots/{person_id(app, 'pilot')}/logbook/new").get_data(as_text=True)
+    scripts = re.findall(r"<script[^>]*>", page)
+    assert scripts == ['<script src="/static/logbook.js" defer>']
+    assert 'data-credit-url="/pilots/' in page
+    response = client.get("/static/logbook.js")
+    body = response.get_data(as_text=True)
+    response.close()
+    assert response.status_code == 200 and "FormData" in body and "http" not in body
