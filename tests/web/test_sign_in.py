@@ -250,3 +250,24 @@ def test_the_throttle_revision_goes_up_and_down_keeping_other_data(backend: str,
         migrate.upgrade(url)
     finally:
         engine.dispose()
+
+
+@pytest.mark.postgres
+def test_the_throttle_counts_and_locks_on_postgresql(pg_migrated_url: str) -> None:
+    engine = make_engine(pg_migrated_url)
+    policy = services.ThrottlePolicy(max_failures=3, window=timedelta(minutes=10), lockout=timedelta(minutes=20))
+    start = datetime(2026, 12, 1, 15, 0, tzinfo=UTC)
+    try:
+        with make_session_factory(engine)() as s:
+            results = [services.record_sign_in_failure(s, "Pg.User@Example.org", "192.0.2.1", start, policy) for _ in range(3)]
+            s.commit()
+        assert results == [None, None, start + timedelta(minutes=20)]
+        with make_session_factory(engine)() as s:  # a new session, as another worker would have
+            assert services.sign_in_locked_until(s, "pg.user@example.org", "192.0.2.1", start) == start + timedelta(minutes=20)
+            assert services.sign_in_locked_until(s, "pg.user@example.org", "192.0.2.2", start) is None
+            assert services.sign_in_locked_until(s, "pg.user@example.org", "192.0.2.1", start + timedelta(minutes=21)) is None
+            services.record_sign_in_success(s, "pg.user@example.org", "192.0.2.1")
+            s.commit()
+            assert services.sign_in_locked_until(s, "pg.user@example.org", "192.0.2.1", start) is None
+    finally:
+        engine.dispose()
