@@ -8,8 +8,10 @@ behind once the caller rolls back.
 from __future__ import annotations
 
 import json
+import re
 from collections.abc import Callable
 from dataclasses import dataclass
+from functools import lru_cache
 from datetime import UTC, date, datetime, time, timedelta
 from pathlib import Path
 from typing import Any
@@ -18,6 +20,7 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 from sqlalchemy.orm import Session
 from werkzeug.security import generate_password_hash
 
+from planner.core import logbook as core_logbook
 from planner.core.logbook import CATEGORIES, Logbook
 from planner.db import models, repository
 from planner.db.repository import EntryConflict, EntryRejected
@@ -450,3 +453,197 @@ def _flush_id(session: Session, row: Any) -> int:
     if row.id is None:
         session.flush()
     return row.id
+
+
+# ---------------------------------------------------------------- school people (admin area)
+
+
+class PersonRejected(ValueError):
+    """A person's details that cannot be stored; ``field`` names the form field."""
+
+    def __init__(self, field: str, problem: str) -> None:
+        super().__init__(f"{field}: {problem}")
+        self.field = field
+        self.problem = problem
+
+
+@dataclass(frozen=True)
+class PersonDetails:
+    """What a school admin types about a person (lists already split, dates parsed)."""
+
+    name: str
+    email: str
+    is_pilot: bool
+    is_instructor: bool
+    is_admin: bool
+    certificate_level: str = "none"
+    category_classes: tuple[str, ...] = ()
+    instrument_categories: tuple[str, ...] = ()
+    instructor_ratings: tuple[str, ...] = ()
+    medical_class: str | None = None
+    medical_expires: date | None = None
+    basicmed_expires: date | None = None
+    home_airfield_id: int | None = None
+    timezone: str | None = None
+
+
+MIN_PASSWORD_LENGTH = 10
+_WORD = re.compile(r"^[a-z0-9]+(?:-[a-z0-9]+)*$")
+
+
+def _check_details(session: Session, details: PersonDetails, person_id: int | None) -> None:
+    if not details.name.strip():
+        raise PersonRejected("name", "give the person's name")
+    if not (details.is_pilot or details.is_instructor or details.is_admin):
+        raise PersonRejected("is_pilot", "give at least one role")
+    other = repository.person_by_email(session, details.email)
+    if other is not None and other.id != person_id:
+        raise PersonRejected("email", "another account already uses this email")
+    if details.certificate_level not in models.CERTIFICATE_LEVELS:
+        raise PersonRejected("certificate_level", f"must be one of {', '.join(models.CERTIFICATE_LEVELS)}")
+    if details.medical_class not in (None, *models.MEDICAL_CLASSES):
+        raise PersonRejected("medical_class", f"must be one of {', '.join(models.MEDICAL_CLASSES)}")
+    if details.medical_expires is not None and details.medical_class is None:
+        raise PersonRejected("medical_class", "give the class of the medical certificate that runs to this date")
+    for pair in details.category_classes:
+        category, _, cls = pair.partition("/")
+        if category not in CATEGORIES or not _WORD.match(cls):
+            raise PersonRejected(
+                "category_classes",
+                f"{pair!r} is not category/class (category one of {', '.join(CATEGORIES)}; e.g. airplane/single-engine-land)",
+            )
+    for category in details.instrument_categories:
+        if category not in CATEGORIES:
+            raise PersonRejected("instrument_categories", f"{category!r} is not one of {', '.join(CATEGORIES)}")
+    for rating in details.instructor_ratings:
+        if not _WORD.match(rating) or len(rating) > 32:
+            raise PersonRejected("instructor_ratings", f"{rating!r}: use lowercase words joined by hyphens, e.g. cfii")
+    if details.timezone is not None:
+        try:
+            ZoneInfo(details.timezone)
+        except (ValueError, ZoneInfoNotFoundError):
+            raise PersonRejected("timezone", f"{details.timezone!r} is not an IANA time zone name (e.g. America/Denver)") from None
+    if details.home_airfield_id is not None and session.get(models.Airfield, details.home_airfield_id) is None:
+        raise PersonRejected("home_airfield", "unknown airfield")
+
+
+def _apply_details(person: models.Person, details: PersonDetails) -> None:
+    person.name = details.name.strip()
+    person.email = details.email.strip()
+    person.is_pilot = details.is_pilot
+    person.is_instructor = details.is_instructor
+    person.is_admin = details.is_admin
+    person.certificate_level = details.certificate_level
+    person.category_classes = list(details.category_classes)
+    person.instrument_categories = list(details.instrument_categories)
+    person.instructor_ratings = list(details.instructor_ratings)
+    person.medical_class = details.medical_class
+    person.medical_expires = details.medical_expires
+    person.basicmed_expires = details.basicmed_expires
+    person.home_airfield_id = details.home_airfield_id
+    person.timezone = details.timezone
+
+
+def _check_password(password: str) -> None:
+    if len(password) < MIN_PASSWORD_LENGTH:
+        raise PersonRejected("password", f"use at least {MIN_PASSWORD_LENGTH} characters")
+
+
+def create_person(
+    session: Session, school_id: int, details: PersonDetails, password: str, *, now: datetime | None = None
+) -> models.Person:
+    """Stage a new person of the school with a hashed initial password; ``PersonRejected`` names the bad field."""
+    _check_details(session, details, None)
+    _check_password(password)
+    person = models.Person(
+        school_id=school_id,
+        password_hash=generate_password_hash(password),
+        rule_sets=["faa-part61"] if details.is_pilot else [],
+        practice_targets={},
+        created_at=now or datetime.now(UTC),
+    )
+    _apply_details(person, details)
+    session.add(person)
+    session.flush()
+    return person
+
+
+def update_person(
+    session: Session, person: models.Person, details: PersonDetails, password: str | None = None
+) -> models.Person:
+    """Change a person's details (and password, when one is given); ``PersonRejected`` names the bad field."""
+    _check_details(session, details, person.id)
+    if person.is_pilot and not details.is_pilot and repository.entry_ids(session, person.id):
+        raise PersonRejected("is_pilot", "this person keeps a logbook; the pilot role stays")
+    if password:
+        _check_password(password)
+        person.password_hash = generate_password_hash(password)
+    _apply_details(person, details)
+    session.flush()
+    return person
+
+
+# ---------------------------------------------------------------- sign-in throttling
+
+
+@dataclass(frozen=True)
+class ThrottlePolicy:
+    """After ``max_failures`` failed sign-ins within ``window`` for one email from one address, refuse for ``lockout``."""
+
+    max_failures: int = 5
+    window: timedelta = timedelta(minutes=15)
+    lockout: timedelta = timedelta(minutes=15)
+
+
+def _throttle_key(email: str, address: str | None) -> tuple[str, str]:
+    return email.strip().lower()[:254], (address or "unknown")[:64]
+
+
+def sign_in_locked_until(session: Session, email: str, address: str | None, now: datetime) -> datetime | None:
+    """When the lockout of (email, address) ends, or None if sign-in may be tried now."""
+    row = repository.sign_in_throttle(session, *_throttle_key(email, address))
+    if row is not None and row.locked_until is not None and row.locked_until > now:
+        return row.locked_until
+    return None
+
+
+def record_sign_in_failure(
+    session: Session, email: str, address: str | None, now: datetime, policy: ThrottlePolicy = ThrottlePolicy()
+) -> datetime | None:
+    """Count a failed sign-in; return the end of the lockout it starts (None while under the limit)."""
+    row = repository.count_sign_in_failure(session, *_throttle_key(email, address), now, now - policy.window)
+    if row.failures >= policy.max_failures:
+        row.locked_until = now + policy.lockout
+        session.flush()
+        return row.locked_until
+    return None
+
+
+def record_sign_in_success(session: Session, email: str, address: str | None) -> None:
+    """A successful sign-in clears the failures of (email, address)."""
+    repository.clear_sign_in_failures(session, *_throttle_key(email, address))
+
+
+# ---------------------------------------------------------------- credit feedback for the entry form
+
+
+@lru_cache(maxsize=64)
+def _builtin_rule_sets(names: tuple[str, ...]) -> tuple[Any, ...]:
+    from planner import rulesets
+
+    return tuple(rulesets.resolve(list(names)))
+
+
+def rule_sets_for(person: models.Person) -> tuple[Any, ...]:
+    """The built-in rule sets the person follows (names that are not built-in are left out, never read as paths)."""
+    from planner import rulesets
+
+    names = tuple(n for n in dict.fromkeys(person.rule_sets or []) if n in rulesets.builtin_names())
+    return _builtin_rule_sets(names) if names else ()
+
+
+def explain_entry(person: models.Person, entry: core_logbook.Entry) -> list[Any]:
+    """What ``entry`` would count toward for ``person`` under their rule sets (``planner.core.credit.CreditNote`` list)."""
+    from planner.core import credit
+
+    return credit.explain(entry, repository.pilot_to_core(person), rule_sets_for(person))

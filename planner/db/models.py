@@ -331,3 +331,24 @@ class AvailabilityWindow(Base):
     ends_at: Mapped[Instant]
     timezone: Mapped[str] = mapped_column(String(64))  # IANA zone the window was given in
     note: Mapped[str] = mapped_column(Text, default="")
+
+
+class SignInThrottle(Base):
+    """Failed sign-ins per (email, client address): counted in a window, then a lockout.
+
+    Kept in the database rather than in process memory so that every worker
+    and host serving the app sees the same counts.
+    """
+
+    __tablename__ = "sign_in_throttles"
+    __table_args__ = (
+        UniqueConstraint("email", "address"),
+        CheckConstraint("failures >= 0", name="failures_nonneg"),
+    )
+
+    id: Mapped[intpk]
+    email: Mapped[str] = mapped_column(String(254))  # as typed, lower-cased (may match no account)
+    address: Mapped[str] = mapped_column(String(64))  # the client's IP address as the app sees it
+    failures: Mapped[int] = mapped_column(Integer, default=0)
+    window_started_at: Mapped[Instant]
+    locked_until: Mapped[datetime | None] = mapped_column(UTCDateTime())

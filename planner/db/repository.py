@@ -20,8 +20,9 @@ from typing import Any
 
 from typing import TypeVar
 
-from sqlalchemy import func, select
+from sqlalchemy import func, or_, select
 from sqlalchemy.orm import Session, selectinload
+from sqlalchemy.exc import IntegrityError
 from sqlalchemy.orm.exc import StaleDataError
 
 from planner.core import logbook as core
@@ -546,3 +547,153 @@ def restore_entry(
     row.deleted_at = None
     session.flush()
     return row
+
+
+# ---------------------------------------------------------------- web queries (logbook list, school lists)
+
+
+def search_entries(
+    session: Session,
+    pilot_id: int,
+    *,
+    date_from: date | None = None,
+    date_to: date | None = None,
+    device: str | None = None,
+    text: str | None = None,
+    with_approaches: bool = False,
+    include_deleted: bool = False,
+    offset: int = 0,
+    limit: int = 25,
+) -> tuple[list[models.Entry], int]:
+    """One page of the pilot's entries, newest first, and how many match in all.
+
+    ``date_from``/``date_to`` are inclusive; ``text`` matches (case-insensitive,
+    literally) the id, route, remarks, aircraft, safety pilot, instructor, or an
+    approach's type or airfield; ``with_approaches`` keeps entries with at
+    least one approach (detailed or counted).
+    """
+    E, A = models.Entry, models.Approach
+    conditions: list[Any] = [E.pilot_id == pilot_id]
+    if not include_deleted:
+        conditions.append(E.deleted_at.is_(None))
+    if date_from is not None:
+        conditions.append(E.date >= date_from)
+    if date_to is not None:
+        conditions.append(E.date <= date_to)
+    if device:
+        conditions.append(E.device == device)
+    has_approach = select(A.id).where(A.entry_id == E.id).exists()
+    if with_approaches:
+        conditions.append(or_(E.unlogged_approaches > 0, has_approach))
+    if text:
+        approach_match = (
+            select(A.id)
+            .where(A.entry_id == E.id, or_(A.type.icontains(text, autoescape=True), A.airfield.icontains(text, autoescape=True)))
+            .exists()
+        )
+        conditions.append(
+            or_(
+                *(
+                    column.icontains(text, autoescape=True)
+                    for column in (E.external_id, E.route, E.remarks, E.aircraft_ident, E.safety_pilot_name, E.instructor_name)
+                ),
+                approach_match,
+            )
+        )
+    total = session.scalar(select(func.count()).select_from(E).where(*conditions)) or 0
+    rows = session.scalars(
+        select(E)
+        .where(*conditions)
+        .options(selectinload(E.approaches), selectinload(E.checks))
+        .order_by(E.date.desc(), E.id.desc())
+        .offset(max(offset, 0))
+        .limit(limit)
+    )
+    return list(rows), int(total)
+
+
+def school_aircraft(session: Session, school_id: int | None) -> list[models.Aircraft]:
+    """The school's aircraft, by registration."""
+    if school_id is None:
+        return []
+    return list(
+        session.scalars(
+            select(models.Aircraft).where(models.Aircraft.school_id == school_id).order_by(models.Aircraft.registration)
+        )
+    )
+
+
+def school_devices(session: Session, school_id: int | None) -> list[models.TrainingDevice]:
+    """The school's training devices, by identifier."""
+    if school_id is None:
+        return []
+    return list(
+        session.scalars(
+            select(models.TrainingDevice)
+            .where(models.TrainingDevice.school_id == school_id)
+            .order_by(models.TrainingDevice.identifier)
+        )
+    )
+
+
+def school_people(session: Session, school_id: int | None) -> list[models.Person]:
+    """Everyone of the school, by name."""
+    if school_id is None:
+        return []
+    return list(
+        session.scalars(
+            select(models.Person).where(models.Person.school_id == school_id).order_by(models.Person.name, models.Person.id)
+        )
+    )
+
+
+def all_airfields(session: Session) -> list[models.Airfield]:
+    """Every airfield, by identifier."""
+    return list(session.scalars(select(models.Airfield).order_by(models.Airfield.ident)))
+
+
+# ---------------------------------------------------------------- sign-in throttling
+
+
+def sign_in_throttle(session: Session, email: str, address: str) -> models.SignInThrottle | None:
+    """The failure counter for (email, address), if any."""
+    return session.scalars(
+        select(models.SignInThrottle).where(
+            models.SignInThrottle.email == email, models.SignInThrottle.address == address
+        )
+    ).one_or_none()
+
+
+def count_sign_in_failure(session: Session, email: str, address: str, now: datetime, window_start_before: datetime) -> models.SignInThrottle:
+    """Add one failure to (email, address); a counter whose window began before ``window_start_before`` starts over.
+
+    The increment is done by the database (``failures = failures + 1``) so that
+    concurrent workers do not lose counts; a counter created at the same moment
+    by another worker is picked up after a unique-constraint clash.
+    """
+    row = sign_in_throttle(session, email, address)
+    if row is None:
+        session.add(models.SignInThrottle(email=email, address=address, failures=0, window_started_at=now))
+        try:
+            session.flush()
+        except IntegrityError:
+            session.rollback()
+        row = sign_in_throttle(session, email, address)
+        assert row is not None
+    if row.window_started_at < window_start_before:
+        row.failures = 0
+        row.window_started_at = now
+        row.locked_until = None
+        session.flush()
+    row.failures = models.SignInThrottle.failures + 1  # type: ignore[assignment]
+    session.flush()
+    session.refresh(row)
+    return row
+
+
+def clear_sign_in_failures(session: Session, email: str, address: str) -> None:
+    """Forget the failures of (email, address) after a successful sign-in."""
+    row = sign_in_throttle(session, email, address)
+    if row is not None:
+        session.delete(row)
+        session.flush()

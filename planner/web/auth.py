@@ -1,16 +1,18 @@
-"""Sign-in and sign-out."""
+"""Sign-in (throttled: failed attempts are counted in the database) and sign-out."""
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from datetime import UTC, datetime, timedelta
 
-from flask import Blueprint, flash, redirect, render_template, request, session, url_for
+from flask import Blueprint, current_app, flash, redirect, render_template, request, session, url_for
 from flask_login import UserMixin, current_user, login_user, logout_user
 from flask_wtf import FlaskForm
 from werkzeug.security import check_password_hash
 from wtforms import EmailField, PasswordField, SubmitField
 from wtforms.validators import DataRequired, Length
 
+from planner import services
 from planner.db import models, repository
 
 bp = Blueprint("auth", __name__)
@@ -70,25 +72,65 @@ def _safe_next(target: str | None) -> str:
     return url_for("dashboard.index")
 
 
+def _now() -> datetime:
+    """The current instant; tests inject a clock with the ``PLANNER_CLOCK`` config key (a callable)."""
+    clock = current_app.config.get("PLANNER_CLOCK")
+    return clock() if clock is not None else datetime.now(UTC)
+
+
+def _policy() -> services.ThrottlePolicy:
+    config = current_app.config
+    default = services.ThrottlePolicy()
+    return services.ThrottlePolicy(
+        max_failures=int(config.get("PLANNER_SIGNIN_MAX_FAILURES", default.max_failures)),
+        window=timedelta(minutes=float(config.get("PLANNER_SIGNIN_WINDOW_MINUTES", default.window.total_seconds() / 60))),
+        lockout=timedelta(minutes=float(config.get("PLANNER_SIGNIN_LOCKOUT_MINUTES", default.lockout.total_seconds() / 60))),
+    )
+
+
+def _locked_message(until: datetime) -> str:
+    return (
+        "Too many failed sign-ins for this email from this address. "
+        f"Sign-in is paused until {until.astimezone(UTC):%H:%M} UTC; try again then."
+    )
+
+
 @bp.route("/login", methods=["GET", "POST"])
 def login():  # type: ignore[no-untyped-def]
-    """Show the sign-in form; sign the person in when the email and password match."""
+    """Show the sign-in form; sign the person in when the email and password match.
+
+    Failed attempts are counted per email and client address in the database;
+    after too many the address is refused for a while, even with the right password.
+    """
     from planner.web import db_session
 
     if current_user.is_authenticated:
         return redirect(url_for("dashboard.index"))
     form = LoginForm()
     error = None
+    status = 200
     if form.validate_on_submit():
-        person = repository.person_by_email(db_session(), form.email.data)
+        session_ = db_session()
+        now, address = _now(), request.remote_addr
+        locked = services.sign_in_locked_until(session_, form.email.data, address, now)
+        if locked is not None:
+            return render_template("auth/login.html", form=form, error=_locked_message(locked)), 429
+        person = repository.person_by_email(session_, form.email.data)
         if person is not None and person.password_hash and check_password_hash(person.password_hash, form.password.data):
+            services.record_sign_in_success(session_, form.email.data, address)
+            session_.commit()
             session.clear()  # a fresh session at sign-in (no fixation)
             login_user(_account(person))
             return redirect(_safe_next(request.args.get("next")))
+        locked = services.record_sign_in_failure(session_, form.email.data, address, now, _policy())
+        session_.commit()
+        if locked is not None:
+            return render_template("auth/login.html", form=form, error=_locked_message(locked)), 429
         error = "That email and password do not match an account."
+        status = 401
     elif request.method == "POST":
         error = "Please give your email and password."
-    status = 200 if error is None else 401
+        status = 401
     return render_template("auth/login.html", form=form, error=error), status
 
 

@@ -1,11 +1,11 @@
-"""Sign-in and the minimal home page (Flask test client)."""
+"""Sign-in, sign-in throttling and the minimal home page (Flask test client)."""
 
 from __future__ import annotations
 
 import html
 import re
 import shutil
-from datetime import date
+from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
 
 import pytest
@@ -140,3 +140,134 @@ def test_the_stylesheet_is_served_locally(client: FlaskClient) -> None:
     response = client.get("/static/style.css")
     response.close()  # static files are streamed from an open file
     assert response.status_code == 200 and response.mimetype == "text/css"
+
+
+# ------------------------------------------------------------------ throttling
+
+
+class Clock:
+    """An injected clock (the app reads it through the PLANNER_CLOCK config key)."""
+
+    def __init__(self, start: datetime) -> None:
+        self.now = start
+
+    def __call__(self) -> datetime:
+        return self.now
+
+
+@pytest.fixture
+def clock(app: Flask) -> Clock:
+    c = Clock(datetime(2026, 12, 1, 15, 0, tzinfo=UTC))
+    app.config.update(PLANNER_CLOCK=c, PLANNER_SIGNIN_MAX_FAILURES=3, PLANNER_SIGNIN_WINDOW_MINUTES=10,
+                      PLANNER_SIGNIN_LOCKOUT_MINUTES=20)
+    return c
+
+
+def test_after_too_many_failures_even_the_right_password_is_refused_until_the_lockout_ends(client: FlaskClient, clock: Clock) -> None:
+    for _ in range(2):
+        assert _sign_in(client, MARA[0], "wrong-password").status_code == 401
+    third = _sign_in(client, MARA[0], "wrong-password")
+    assert third.status_code == 429 and "paused until 15:20 UTC" in third.get_data(as_text=True)
+    clock.now += timedelta(minutes=19)
+    refused = _sign_in(client, MARA[0], MARA[1])
+    assert refused.status_code == 429
+    assert client.get("/").status_code == 302  # still signed out
+    clock.now += timedelta(minutes=1, seconds=1)
+    assert _sign_in(client, MARA[0], MARA[1]).status_code == 302
+    assert client.get("/").status_code == 200
+
+
+def test_failures_spread_beyond_the_window_do_not_lock(client: FlaskClient, clock: Clock) -> None:
+    for _ in range(5):
+        assert _sign_in(client, MARA[0], "wrong-password").status_code == 401
+        clock.now += timedelta(minutes=6)
+    # A window runs 10 minutes from its first failure: failures at 0 and 6 count 2; 12 opens a new window
+    # (12 and 18 count 2); 24 opens another. The limit of 3 is never reached.
+    assert _sign_in(client, MARA[0], MARA[1]).status_code == 302
+
+
+def test_a_successful_sign_in_clears_the_count(client: FlaskClient, app: Flask, clock: Clock) -> None:
+    for _ in range(2):
+        _sign_in(client, MARA[0], "wrong-password")
+    assert _sign_in(client, MARA[0], MARA[1]).status_code == 302
+    client.post("/logout", data={"csrf_token": _csrf(client.get("/").get_data(as_text=True))})
+    for _ in range(2):
+        assert _sign_in(client, MARA[0], "wrong-password").status_code == 401  # a fresh count of 1, 2
+
+
+def test_the_count_is_per_email_and_address_and_kept_in_the_database(client: FlaskClient, app: Flask, clock: Clock) -> None:
+    for _ in range(3):
+        _sign_in(client, MARA[0].upper(), "wrong-password")  # the email's case does not matter
+    assert _sign_in(client, MARA[0], MARA[1]).status_code == 429
+    # Another address is not locked out; another email from the locked address neither.
+    other = app.test_client()
+    token = _csrf(other.get("/login").get_data(as_text=True))
+    response = other.post("/login", data={"email": MARA[0], "password": MARA[1], "csrf_token": token},
+                          environ_base={"REMOTE_ADDR": "192.0.2.7"})
+    assert response.status_code == 302
+    assert _sign_in(client, "tobias.lindqvist@juniper-ridge.example", "juniper-pilot-tobias").status_code == 302
+    # A second app on the same database (another worker) sees the same lockout.
+    second = create_app(Settings(database_url=app.extensions["planner.settings"].database_url, secret_key="test-secret",
+                                 instance_dir=Path(app.instance_path), seed_dir=Path(app.instance_path)),
+                        TESTING=True, PLANNER_CLOCK=clock)
+    try:
+        worker = second.test_client()
+        token = _csrf(worker.get("/login").get_data(as_text=True))
+        locked = worker.post("/login", data={"email": MARA[0], "password": MARA[1], "csrf_token": token})
+        assert locked.status_code == 429
+    finally:
+        second.extensions["planner.engine"].dispose()
+
+
+def test_unknown_emails_are_throttled_like_known_ones(client: FlaskClient, clock: Clock) -> None:
+    codes = [_sign_in(client, "nobody@juniper-ridge.example", "guess").status_code for _ in range(4)]
+    assert codes == [401, 401, 429, 429]
+
+
+@pytest.mark.parametrize("backend", ["sqlite", pytest.param("postgres", marks=pytest.mark.postgres)])
+def test_the_throttle_revision_goes_up_and_down_keeping_other_data(backend: str, request: pytest.FixtureRequest, tmp_path: Path) -> None:
+    from alembic.script import ScriptDirectory
+    from sqlalchemy import inspect, text
+
+    url = f"sqlite:///{tmp_path / 'm.sqlite3'}" if backend == "sqlite" else request.getfixturevalue("pg_url")
+    script = ScriptDirectory.from_config(migrate.alembic_config())
+    revision = next(r for r in script.walk_revisions() if "sign_in_throttles" in Path(r.path).name)
+    migrate.upgrade(url, revision.down_revision)
+    engine = make_engine(url)
+    try:
+        with engine.begin() as conn:
+            conn.execute(text("INSERT INTO schools (slug, name) VALUES ('s', 'S')"))
+        migrate.upgrade(url, revision.revision)
+        with engine.begin() as conn:
+            assert "sign_in_throttles" in inspect(conn).get_table_names()
+            conn.execute(text("INSERT INTO sign_in_throttles (email, address, failures, window_started_at) "
+                              "VALUES ('a@b.example', '127.0.0.1', 1, '2026-12-01 15:00:00')"))
+        migrate.check(url)  # models and migrations agree
+        migrate.downgrade(url, revision.down_revision)
+        with engine.begin() as conn:
+            assert "sign_in_throttles" not in inspect(conn).get_table_names()
+            assert conn.execute(text("SELECT count(*) FROM schools")).scalar_one() == 1
+        migrate.upgrade(url)
+    finally:
+        engine.dispose()
+
+
+@pytest.mark.postgres
+def test_the_throttle_counts_and_locks_on_postgresql(pg_migrated_url: str) -> None:
+    engine = make_engine(pg_migrated_url)
+    policy = services.ThrottlePolicy(max_failures=3, window=timedelta(minutes=10), lockout=timedelta(minutes=20))
+    start = datetime(2026, 12, 1, 15, 0, tzinfo=UTC)
+    try:
+        with make_session_factory(engine)() as s:
+            results = [services.record_sign_in_failure(s, "Pg.User@Example.org", "192.0.2.1", start, policy) for _ in range(3)]
+            s.commit()
+        assert results == [None, None, start + timedelta(minutes=20)]
+        with make_session_factory(engine)() as s:  # a new session, as another worker would have
+            assert services.sign_in_locked_until(s, "pg.user@example.org", "192.0.2.1", start) == start + timedelta(minutes=20)
+            assert services.sign_in_locked_until(s, "pg.user@example.org", "192.0.2.2", start) is None
+            assert services.sign_in_locked_until(s, "pg.user@example.org", "192.0.2.1", start + timedelta(minutes=21)) is None
+            services.record_sign_in_success(s, "pg.user@example.org", "192.0.2.1")
+            s.commit()
+            assert services.sign_in_locked_until(s, "pg.user@example.org", "192.0.2.1", start) is None
+    finally:
+        engine.dispose()
