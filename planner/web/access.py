@@ -39,6 +39,9 @@ def can_edit(person: models.Person) -> bool:
 
 def pilot_or_404(pilot_id: int, *, edit: bool = False) -> models.Person:
     """The pilot with ``pilot_id`` if the signed-in account may see (or edit) them, else abort 404."""
+    # Ids beyond a 32-bit INTEGER column cannot exist (and overflow the drivers).
+    if not 0 < pilot_id <= 2**31 - 1:
+        abort(404)
     person = db_session().get(models.Person, pilot_id)
     if person is None or not person.is_pilot or not (can_edit(person) if edit else can_view(person)):
         abort(404)
