@@ -27,6 +27,7 @@ AXIS_H = 34
 ROW_H = 30
 BAND_H = 18
 FOOT_H = 22
+LABEL_CHARS = 38
 
 # Our own palette: each state also has its own fill pattern and a word on the band.
 _FILL = {
@@ -103,19 +104,25 @@ def render(
     for r_i, row in enumerate(rows):
         y = AXIS_H + r_i * ROW_H
         band_y = y + (ROW_H - BAND_H) / 2
-        name = escape(label(row))
-        parts.append(f'<g class="tl-row"><title>{name}</title>')
+        full = label(row)
+        short = full if len(full) <= LABEL_CHARS else full[: LABEL_CHARS - 1].rstrip() + "…"
+        parts.append(f'<g class="tl-row"><title>{escape(full)}</title>')
         parts.append(
-            f'<text x="6" y="{band_y + BAND_H - 4}" font-size="12" fill="#1d2430">{name}</text>'
+            f'<text x="6" y="{band_y + BAND_H - 4}" font-size="12" fill="#1d2430">{escape(short)}</text>'
         )
-        stretches = []
+        # Stretches of one state (a new entry moving a date inside a stretch does not split it).
+        stretches: list[tuple[currency.StateChange, date]] = []
         for c_i, change in enumerate(row.changes):
             until = row.changes[c_i + 1].date - timedelta(days=1) if c_i + 1 < len(row.changes) else end
-            stretches.append((change, until))
+            if stretches and stretches[-1][0].state == change.state:
+                stretches[-1] = (stretches[-1][0], until)
+            else:
+                stretches.append((change, until))
+        for change, until in stretches:
             x0, x1 = x(change.date), x(until + timedelta(days=1))
             solid, pattern, ink = _FILL[change.state]
             word = _WORD[change.state]
-            tip = f"{label(row)}: {word} from {change.date.isoformat()} to {until.isoformat()}"
+            tip = f"{full}: {word} from {change.date.isoformat()} to {until.isoformat()}"
             if change.state != currency.CURRENT and change.regain_with:
                 tip += f" (regain with {change.regain_with}"
                 tip += f" until {change.regain_by.isoformat()})" if change.regain_by else ")"
@@ -128,23 +135,26 @@ def render(
                     f'<text x="{x0 + 4}" y="{band_y + BAND_H - 5}" font-size="11" fill="{ink}" '
                     f'font-weight="600" aria-hidden="true">{word}</text>'
                 )
-        # Deadlines: every last valid day and end of regain stage seen on this row, inside the range.
+        # Deadlines: where a period of currency ended (or will end), and the end of a regain stage.
         deadlines: dict[date, str] = {}
-        for change, _until in stretches:
-            if change.valid_through and start <= change.valid_through <= end:
-                deadlines.setdefault(change.valid_through, "last valid day")
-            if change.regain_by and start <= change.regain_by <= end:
+        for i, (change, until) in enumerate(stretches):
+            if change.state == currency.CURRENT and (i + 1 < len(stretches) or until == end):
+                stand = row.at(until)
+                if stand.valid_through and start <= stand.valid_through <= end:
+                    deadlines[stand.valid_through] = "last valid day"
+            reached = i + 1 == len(stretches) or (change.regain_by is not None and change.regain_by <= until)
+            if reached and change.regain_by and start <= change.regain_by <= end:
                 deadlines[change.regain_by] = "end of regain with tasks"
         for day, what in sorted(deadlines.items()):
             dx = x(day + timedelta(days=1))
             parts.append(
                 f'<path class="tl-deadline" d="M{dx} {band_y - 4} l-4 -5 h8 z M{dx} {band_y - 4} V{band_y + BAND_H + 2}" '
-                f'fill="#1d2430" stroke="#1d2430" stroke-width="1.5"><title>{escape(f"{label(row)}: {what} {day.isoformat()}")}</title></path>'
+                f'fill="#1d2430" stroke="#1d2430" stroke-width="1.5"><title>{escape(f"{full}: {what} {day.isoformat()}")}</title></path>'
             )
         parts.append("</g>")
         now = row.at(as_of) if row.changes and row.changes[0].date <= as_of else None
         if now is not None:
-            text = f"{label(row)}: {_WORD[now.state]} today"
+            text = f"{full}: {_WORD[now.state]} today"
             if now.valid_through:
                 text += f", last valid day {now.valid_through.isoformat()}"
             if now.regain_by:

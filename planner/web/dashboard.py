@@ -21,7 +21,8 @@ from wtforms import (
     StringField,
     SubmitField,
 )
-from wtforms.validators import InputRequired, Length, NumberRange, Optional
+from wtforms.fields.choices import SelectChoice
+from wtforms.validators import InputRequired, Length, NumberRange, Optional, ValidationError
 
 from planner import services
 from planner.core import currency
@@ -40,18 +41,18 @@ PLAN_HORIZON_DAYS = 366
 PLANNED_SAFETY_PILOT = "(planned safety pilot)"
 
 SETTINGS = [
-    ("simulated", "Aircraft, simulated instrument, safety pilot aboard"),
-    ("actual", "Aircraft, actual instrument conditions"),
-    ("atd", "Aviation training device"),
-    ("ftd", "Flight training device"),
-    ("ffs", "Full flight simulator"),
+    SelectChoice("simulated", "Aircraft, simulated instrument, safety pilot aboard"),
+    SelectChoice("actual", "Aircraft, actual instrument conditions"),
+    SelectChoice("atd", "Aviation training device"),
+    SelectChoice("ftd", "Flight training device"),
+    SelectChoice("ffs", "Full flight simulator"),
 ]
 CHECKS = [
-    ("", "No check"),
-    ("ipc", "Instrument proficiency check"),
-    ("instrument-practical-test", "Instrument-rating practical test"),
-    ("flight-review", "Flight review"),
-    ("ir-proficiency-check", "Instrument-rating proficiency check (EASA)"),
+    SelectChoice("", "No check"),
+    SelectChoice("ipc", "Instrument proficiency check"),
+    SelectChoice("instrument-practical-test", "Instrument-rating practical test"),
+    SelectChoice("flight-review", "Flight review"),
+    SelectChoice("ir-proficiency-check", "Instrument-rating proficiency check (EASA)"),
 ]
 
 
@@ -78,11 +79,11 @@ class PlannedEntryForm(Form):
 
     def validate_approach_type(self, field: StringField) -> None:
         if (self.approaches.data or 0) > 0 and not (field.data or "").strip():
-            raise ValueError("An approach needs its type to count (14 CFR 61.51(g)).")
+            raise ValidationError("An approach needs its type to count (14 CFR 61.51(g)).")
 
     def validate_approach_airfield(self, field: StringField) -> None:
         if (self.approaches.data or 0) > 0 and not (field.data or "").strip():
-            raise ValueError("An approach needs its airfield to count (14 CFR 61.51(g)).")
+            raise ValidationError("An approach needs its airfield to count (14 CFR 61.51(g)).")
 
 
 class WhatIfForm(FlaskForm):
@@ -190,11 +191,15 @@ def _planned(form: WhatIfForm, person: models.Person) -> list[Entry]:
     return out
 
 
-def _label(rule_set_titles: dict[str, str]):  # type: ignore[no-untyped-def]
+def _label(regulators: dict[str, str]):  # type: ignore[no-untyped-def]
+    """Row labels for the chart; the regulator is named when the pilot follows several."""
+    several = len([k for k in regulators if k != services.PRACTICE_TARGETS]) > 1
+
     def label(row: Any) -> str:
-        scope = words.scope_words(row.scope)
-        text = row.title + (f" ({scope})" if scope else "")
-        return text + (" [practice]" if row.rule_set == services.PRACTICE_TARGETS else "")
+        text = words.short_label(row.rule_set, row.id, row.title, row.scope)
+        if row.rule_set == services.PRACTICE_TARGETS:
+            return text + " (practice)"
+        return text + (f" ({regulators[row.rule_set]})" if several else "")
 
     return label
 
@@ -254,7 +259,7 @@ def _page(
     start = as_of - relativedelta(months=PAST_MONTHS)
     end = as_of + relativedelta(months=NEXT_MONTHS)
     result = services.pilot_status(db_session(), person.id, as_of, timeline_range=(start, end), planned=planned or ())
-    titles = {rs.id: rs.title for rs in result.rule_sets}
+    regulators = {rs.id: rs.regulator or rs.id for rs in result.rule_sets}
     groups = []
     for rs in result.rule_sets:
         items = [_item(s, as_of, person.id) for s in result.report.requirements if s.rule_set == rs.id]
@@ -268,7 +273,7 @@ def _page(
     svg = None
     if result.timeline is not None:
         svg = chart.render(
-            result.timeline, as_of, label=_label(titles), planned=[p.date for p in planned or ()]
+            result.timeline, as_of, label=_label(regulators), planned=[p.date for p in planned or ()]
         )
     moves = None
     if result.what_if is not None:

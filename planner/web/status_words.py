@@ -135,3 +135,35 @@ def regain_words(status: currency.RequirementStatus) -> str:
     if status.regain_with == "check":
         return f"Only {check_words(status.missing.get('check', []))} restores it."
     return "The missing tasks restore it."
+
+
+_SHORT = {
+    "instrument": "IFR experience",
+    "instrument-recency": "Instrument recency",
+    "instrument-check": "Instrument check",
+    "instrument-rating": "Instrument rating",
+    "ipc": "Proficiency check",
+    "passengers-day": "Passengers",
+    "passengers": "Passengers",
+    "passengers-night": "Night passengers",
+    "flight-review": "Flight review",
+    "partial-panel": "Partial panel",
+    "unusual-attitudes": "Unusual attitudes",
+    "hand-flown-approach": "Hand-flown approach",
+    "actual-imc": "Actual IMC",
+}
+_CLASS_SHORT = {
+    "single-engine-land": "SEL",
+    "multi-engine-land": "MEL",
+    "single-engine-sea": "SES",
+    "multi-engine-sea": "MES",
+}
+
+
+def short_label(rule_set: str, requirement: str, title: str, scope: str) -> str:
+    """A compact row label for charts: 'IFR experience · airplane', 'Passengers · airplane SEL'."""
+    text = _SHORT.get(requirement, title)
+    if scope != "pilot":
+        category, _, cls = scope.partition("/")
+        text += f" · {category}" + (f" {_CLASS_SHORT.get(cls, cls)}" if cls else "")
+    return text
