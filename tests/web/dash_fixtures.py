@@ -96,3 +96,47 @@ def person_id(app: Flask, who: str) -> int:
         from planner.web import db_session
 
         return repository.person_by_email(db_session(), PASSWORDS[who][0]).id
+
+
+OTHER_SCHOOL = {
+    "instructor": ("ines.halvorsen@larkspur-field.example", "larkspur-cfii-ines"),
+    "pilot": ("osric.pemberton@larkspur-field.example", "larkspur-pilot-osric"),
+}
+
+
+def add_other_school(app: Flask) -> dict[str, int]:
+    """A second (invented) school with one instructor and one pilot; returns their ids."""
+    from datetime import UTC, datetime
+
+    from werkzeug.security import generate_password_hash
+
+    from planner.db import models
+    from planner.web import db_session
+
+    stamp = datetime(2026, 12, 1, tzinfo=UTC)
+    with app.app_context():
+        session = db_session()
+        school = models.School(slug="larkspur-field", name="Larkspur Field Flying Club")
+        session.add(school)
+        session.flush()
+        ids = {}
+        for role, (email, password) in OTHER_SCHOOL.items():
+            person = models.Person(
+                school_id=school.id, name=email.split("@")[0].replace(".", " ").title(), email=email,
+                password_hash=generate_password_hash(password), is_pilot=role == "pilot",
+                is_instructor=role == "instructor", is_admin=False, certificate_level="private",
+                category_classes=["airplane/single-engine-land"], instrument_categories=["airplane"],
+                instructor_ratings=[], rule_sets=["faa-part61"], practice_targets={}, timezone="America/Denver",
+                created_at=stamp,
+            )
+            session.add(person)
+            session.flush()
+            ids[role] = person.id
+        session.commit()
+    return ids
+
+
+def sign_in_as(client: FlaskClient, email: str, password: str) -> None:
+    token = csrf(client.get("/login").get_data(as_text=True))
+    response = client.post("/login", data={"email": email, "password": password, "csrf_token": token})
+    assert response.status_code == 302, f"sign-in as {email} failed"
