@@ -36,6 +36,7 @@ __all__ = [
     "SeedError",
     "SettingsRejected",
     "airfields",
+    "builtin_rule_set",
     "currency_report",
     "export_logbook",
     "get_pilot",
@@ -474,7 +475,8 @@ DEFAULT_RULE_SETS = ("faa-part61",)
 
 
 @lru_cache(maxsize=None)
-def _builtin(name: str) -> RuleSet:
+def builtin_rule_set(name: str) -> RuleSet:
+    """A built-in rule set (parsed once)."""
     return rulesets.load_builtin(name)
 
 
@@ -482,7 +484,7 @@ def rule_sets_for(person: models.Person) -> tuple[RuleSet, ...]:
     """The rule sets ``person`` follows (default ``faa-part61``), practice targets with their own overrides."""
     out = []
     for name in person.rule_sets or DEFAULT_RULE_SETS:
-        rule_set = _builtin(name)
+        rule_set = builtin_rule_set(name)
         if name == PRACTICE_TARGETS and person.practice_targets:
             rule_set = overrides.apply(rule_set, person.practice_targets)
         out.append(rule_set)
@@ -606,7 +608,7 @@ def update_settings(
         if name not in rulesets.builtin_names():
             raise SettingsRejected("rule_sets", f"unknown rule set {name!r}")
     try:
-        canon = overrides.validate(_builtin(PRACTICE_TARGETS), practice_targets)
+        canon = overrides.validate(builtin_rule_set(PRACTICE_TARGETS), practice_targets)
     except rulesets.RuleSetError as exc:
         raise SettingsRejected("practice_targets", str(exc)) from None
     chosen = None
