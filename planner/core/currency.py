@@ -35,7 +35,7 @@ from __future__ import annotations
 from bisect import bisect_left, bisect_right
 from dataclasses import dataclass, field
 from datetime import date
-from functools import lru_cache
+from operator import attrgetter
 from typing import Iterable, Sequence
 
 from planner.core import rules as r
@@ -211,15 +211,20 @@ def _hundredths(hours: float) -> int:
     return round(hours * 100)
 
 
-def units_on(entry: Entry, unit: str, conditions: str, hand_flown_only: bool = False) -> tuple[int, tuple[str, ...]]:
+def units_on(
+    entry: Entry, unit: str, conditions: str, hand_flown_only: bool = False, entry_condition: tuple | None = None
+) -> tuple[int, tuple[str, ...]]:
     """Creditable amount of ``unit`` on ``entry`` (hundredths of an hour for hour units),
-    and the reasons any logged work of that unit was not credited."""
+    and the reasons any logged work of that unit was not credited.
+
+    ``entry_condition`` may pass a precomputed ``_instrument_condition(entry)``.
+    """
     problems: list[str] = []
     if unit == r.APPROACHES:
         count = 0
         entry_cond = entry_problem = None
         if conditions != r.CONDITIONS_ANY:
-            entry_cond, entry_problem = _instrument_condition(entry)
+            entry_cond, entry_problem = entry_condition or _instrument_condition(entry)
         named = bool(entry.safety_pilot or entry.instructor)
         for i, ap in enumerate(entry.approaches, start=1):
             if not (ap.type and ap.airfield):
@@ -275,7 +280,7 @@ def units_on(entry: Entry, unit: str, conditions: str, hand_flown_only: bool = F
     else:  # pragma: no cover - the loader refuses unknown units
         raise ValueError(f"unknown task unit {unit!r}")
     if amount and conditions != r.CONDITIONS_ANY:
-        cond, problem = _instrument_condition(entry)
+        cond, problem = entry_condition or _instrument_condition(entry)
         if problem:
             return 0, (problem,)
         if not _condition_ok(cond, conditions):
@@ -325,38 +330,95 @@ def _scope_filter(requirement: r.Requirement, scope: str):
 
 
 class _Index:
-    """Entries sorted by date, with per-unit amounts computed once and shared."""
+    """Entries sorted by date, with per-unit amounts computed once and shared.
+
+    Amounts are bucketed by (device, category, class) so that a task only
+    looks at the entries it can credit.
+    """
 
     def __init__(self, entries: Iterable[Entry]):
-        self.entries: list[Entry] = sorted(entries, key=lambda e: (e.date, e.id))
+        self.entries: list[Entry] = sorted(entries, key=attrgetter("date", "id"))
         self.ords: list[int] = [e.date.toordinal() for e in self.entries]
-        self._amounts: dict[tuple, list[tuple[int, int, tuple[str, ...]]]] = {}
+        self._buckets: dict[tuple, tuple[int, dict]] = {}
         self._checks: list[tuple[int, int]] | None = None
+        self.series_cache: dict[tuple, _TaskSeries] = {}
+        self._conds: dict[int, tuple] = {}
 
     def upto(self, day_ord: int) -> int:
         """Number of entries dated on or before the ordinal ``day_ord``."""
         return bisect_right(self.ords, day_ord)
 
-    def amounts(self, unit: str, conditions: str, hand: bool) -> list[tuple[int, int, tuple[str, ...]]]:
-        """(entry index, amount, problems) for every entry with any of ``unit`` logged."""
+    def buckets(self, unit: str, conditions: str, hand: bool, first: int = 0) -> dict[tuple, tuple[list, list, list]]:
+        """(device, category, class) -> (ordinals, amounts, entry indexes) of creditable work, by date.
+
+        Covers at least the entries from index ``first`` on; older entries are
+        read only when a caller asks for them.
+        """
         key = (unit, conditions, hand)
-        cached = self._amounts.get(key)
-        if cached is None:
-            cached = []
-            for i, e in enumerate(self.entries):
-                if not _may_have(e, unit):
-                    continue
-                amount, problems = units_on(e, unit, conditions, hand)
-                if amount or problems:
-                    cached.append((i, amount, problems))
-            self._amounts[key] = cached
+        done_from, cached = self._buckets.get(key, (len(self.entries), {}))
+        if first < done_from:
+            older = self._bucket_range(unit, conditions, hand, first, done_from)
+            for bucket_key, (o, a, i) in cached.items():
+                b = older.get(bucket_key)
+                if b is None:
+                    older[bucket_key] = (o, a, i)
+                else:
+                    b[0].extend(o)
+                    b[1].extend(a)
+                    b[2].extend(i)
+            cached = older
+            done_from = first
+            self._buckets[key] = (done_from, cached)
         return cached
+
+    def _bucket_range(self, unit: str, conditions: str, hand: bool, lo: int, hi: int) -> dict:
+        out: dict[tuple, tuple[list, list, list]] = {}
+        ords = self.ords
+        entries = self.entries
+        attr = _SIMPLE_UNITS.get(unit)
+        if attr is not None and conditions == r.CONDITIONS_ANY:
+            rows = [(i, getattr(entries[i], attr)) for i in range(lo, hi) if getattr(entries[i], attr)]
+            if attr == "course_tracking":
+                rows = [(i, 1) for i, _ in rows]
+        else:
+            rows = []
+            conds = self._conds
+            for i in range(lo, hi):
+                e = entries[i]
+                if _may_have(e, unit):
+                    c = conds.get(i)
+                    if c is None:
+                        c = conds[i] = _instrument_condition(e)
+                    amount = units_on(e, unit, conditions, hand, c)[0]
+                    if amount:
+                        rows.append((i, amount))
+        for i, amount in rows:
+            e = entries[i]
+            bucket_key = (e.device, e.category, e.aircraft_class)
+            b = out.get(bucket_key)
+            if b is None:
+                b = out[bucket_key] = ([], [], [])
+            b[0].append(ords[i])
+            b[1].append(amount)
+            b[2].append(i)
+        return out
 
     def checks(self) -> list[tuple[int, int]]:
         """(entry index, ordinal) of entries with any check."""
         if self._checks is None:
             self._checks = [(i, self.ords[i]) for i, e in enumerate(self.entries) if e.checks]
         return self._checks
+
+
+_SIMPLE_UNITS = {
+    r.HOLDS: "holds",
+    r.COURSE_TRACKING: "course_tracking",
+    r.LANDINGS: "landings",
+    r.NIGHT_FULL_STOP_LANDINGS: "night_full_stop_landings",
+    r.PARTIAL_PANEL_APPROACHES: "partial_panel_approaches",
+    r.UA_NOSE_HIGH: "ua_nose_high",
+    r.UA_NOSE_LOW: "ua_nose_low",
+}
 
 
 def _may_have(e: Entry, unit: str) -> bool:
@@ -386,14 +448,36 @@ def _may_have(e: Entry, unit: str) -> bool:
 # ----------------------------------------------------------- interval helpers
 
 
-@lru_cache(maxsize=262144)
+_END_CACHE: dict[Window, dict[int, int]] = {}
+_START_CACHE: dict[Window, dict[int, int]] = {}
+
+
 def _end(window: Window, o: int) -> int:
-    return credit_end(window, date.fromordinal(o)).toordinal()
+    cache = _END_CACHE.get(window)
+    if cache is None:
+        cache = _END_CACHE[window] = {}
+    v = cache.get(o)
+    if v is None:
+        v = cache[o] = credit_end(window, date.fromordinal(o)).toordinal()
+    return v
 
 
-@lru_cache(maxsize=262144)
 def _start(window: Window, o: int) -> int:
-    return credit_start(window, date.fromordinal(o)).toordinal()
+    if window.unit != "calendar-months" or window.current_month_counts:
+        return o
+    cache = _START_CACHE.get(window)
+    if cache is None:
+        cache = _START_CACHE[window] = {}
+    v = cache.get(o)
+    if v is None:
+        v = cache[o] = credit_start(window, date.fromordinal(o)).toordinal()
+    return v
+
+
+def clear_caches() -> None:
+    """Forget memoised window arithmetic (for benchmarks)."""
+    _END_CACHE.clear()
+    _START_CACHE.clear()
 
 
 def _intersect(a: list[tuple[int, int]], b: list[tuple[int, int]]) -> list[tuple[int, int]]:
@@ -433,30 +517,51 @@ def _clip(intervals: list[tuple[int, int]], lo: int, hi: int) -> list[tuple[int,
 class _TaskSeries:
     """One task of one path, for one scope: its unit-days and when it is met."""
 
-    def __init__(self, task: r.Task, window: Window, days: list[int], amounts: list[int], ids: list[list[str]]):
+    def __init__(self, task: r.Task, window: Window, days: list[int], amounts: list[int], idxs: list[int],
+                 entries: list[Entry]):
         self.task = task
         self.window = window
         self.days = days
         self.amounts = amounts
-        self.ids = ids
+        self.idxs = idxs  # entry index of each row (rows of one day are kept apart)
+        self.entries = entries
         need = task.minimum_units
-        self.starts = [_start(window, d) for d in days]
-        self.ends = [_end(window, d) for d in days]
+        self.simple = window.unit != "calendar-months" or window.current_month_counts
+        self.starts = days if self.simple else [_start(window, d) for d in days]
+        end_cache = _END_CACHE.get(window)
+        if end_cache is None:
+            end_cache = _END_CACHE[window] = {}
+        ends = []
+        for d in days:
+            v = end_cache.get(d)
+            if v is None:
+                v = end_cache[d] = credit_end(window, date.fromordinal(d)).toordinal()
+            ends.append(v)
+        self.ends = ends
         prefix = [0]
+        total = 0
         for a in amounts:
-            prefix.append(prefix[-1] + a)
+            total += a
+            prefix.append(total)
         self.prefix = prefix
         # endl[j]: last day the task is met using units up to group j
         # (the n-th most recent unit's credit end), or -1 if too few units.
         endl = []
+        limit = 0  # the n-th most recent row moves forward only: two pointers, no search
         for j in range(len(days)):
             target = prefix[j + 1] - need
             if target < 0:
                 endl.append(-1)
-            else:
-                limit = bisect_right(prefix, target) - 1
-                endl.append(_end(window, days[limit]))
+                continue
+            while prefix[limit + 1] <= target:
+                limit += 1
+            endl.append(ends[limit])
         self.endl = endl
+
+    def tail_end(self, day: int) -> int:
+        """Simple windows only: last day met if nothing after ``day`` is logged (-1: not met)."""
+        last = bisect_right(self.days, day) - 1
+        return self.endl[last] if last >= 0 else -1
 
     def intervals(self) -> list[tuple[int, int]]:
         """Days on which the task is met (sorted, disjoint, inclusive ordinals)."""
@@ -479,6 +584,9 @@ class _TaskSeries:
         last = bisect_right(self.days, day) - 1
         if last < 0:
             return []
+        if self.simple:
+            e = self.endl[last]
+            return [(day, e)] if e >= day else []
         first = max(bisect_right(self.starts, day) - 1, 0)
         out = []
         for j in range(first, last + 1):
@@ -510,7 +618,7 @@ class _TaskSeries:
         ids: list[str] = []
         j = last
         while j >= first and got < need:
-            ids.extend(self.ids[j])
+            ids.append(self.entries[self.idxs[j]].id)
             got += self.amounts[j]
             j -= 1
         return ids
@@ -526,20 +634,62 @@ class _Check:
     entry_id: str
 
 
+def _checks_for(req: r.Requirement, cat: str | None, index: _Index, limit: int) -> list[_Check]:
+    """Checks that meet ``req`` (in category ``cat``), with the expiry each leaves, in date order."""
+    if not req.checks:
+        return []
+    out: list[_Check] = []
+    expiry: int | None = None
+    entries = index.entries
+    for i, o in index.checks():
+        if i >= limit:
+            break
+        e = entries[i]
+        day = e.date
+        for kind in e.checks:
+            rule = next(
+                (c for c in req.checks if kind in c.kinds and c.is_in_force(day)
+                 and (not c.same_category or cat is None or e.category == cat)),
+                None,
+            )
+            if rule is None:
+                continue
+            if (
+                expiry is not None
+                and rule.early_renewal is not None
+                and early_window_start(rule.early_renewal, date.fromordinal(expiry)).toordinal() <= o <= expiry
+            ):
+                new = _end(rule.window, expiry)
+            else:
+                new = _end(rule.window, o)
+            if expiry is not None and expiry >= o:
+                new = max(new, expiry)
+            expiry = new
+            out.append(_Check(o, new, e.id))
+            break
+    return out
+
+
 class _Judged:
-    """A requirement judged for one scope over the entries of an index (up to a limit)."""
+    """A requirement judged for one scope over the entries of an index.
+
+    Entries after ``limit`` (an index into the sorted entries) are ignored;
+    task work dated before the ordinal ``lower`` is ignored too (callers only
+    pass a ``lower`` where the result does not depend on older work).
+    """
 
     def __init__(self, rule_set: r.RuleSet, req: r.Requirement, scope: str, index: _Index, limit: int,
-                 covered_scopes: tuple[str, ...]):
+                 covered_scopes: tuple[str, ...], lower: int = -_INF, checks: list[_Check] | None = None):
         self.rule_set = rule_set
         self.req = req
         self.scope = scope
         self.index = index
         self.limit = limit  # entries[:limit] are considered
+        self.limit_ord = index.ords[limit - 1] if limit else -_INF
+        self.lower = lower
         self.covered_scopes = covered_scopes
         cat, cls = _scope_filter(req, scope)
         self.cat, self.cls = cat, cls
-        self.problems: list[tuple[int, str]] = []  # (entry index, message)
 
         self.paths: list[tuple[r.Path, list[_TaskSeries]]] = []
         path_sets = []
@@ -555,9 +705,22 @@ class _Judged:
             path_sets.append(_clip(met, lo, hi))
             self.paths.append((path, series))
         self.tasks_met = _union(path_sets)
-        self.checks = self._checks()
+        self.checks = self._checks() if checks is None else checks
         self.periods = self._periods()
         self._period_starts = [p[0] for p in self.periods]
+        self._path_bounds = [
+            (
+                path.effective_from.toordinal() if path.effective_from else -_INF,
+                path.effective_until.toordinal() if path.effective_until else _INF,
+                all(s.simple for s in series),
+            )
+            for path, series in self.paths
+        ]
+        self._check_days = [c.day for c in self.checks]
+        reach = []
+        for c in self.checks:
+            reach.append(c.expiry if not reach or c.expiry > reach[-1] else reach[-1])
+        self._check_reach = reach
 
     # -- building
 
@@ -569,83 +732,82 @@ class _Judged:
         return True
 
     def _series(self, task: r.Task, window: Window) -> _TaskSeries:
-        entries = self.index.entries
-        lo = task.entries_from.toordinal() if task.entries_from else -_INF
-        hi = task.entries_until.toordinal() if task.entries_until else _INF
-        devices = task.devices
-        days: list[int] = []
-        amounts: list[int] = []
-        ids: list[list[str]] = []
-        for i, amount, problems in self.index.amounts(task.unit, task.conditions, task.hand_flown_only):
-            if i >= self.limit:
-                break
-            e = entries[i]
-            if e.device not in devices:
-                continue
-            o = self.index.ords[i]
-            if o < lo or o > hi:
-                continue
-            if not self._in_scope(e):
-                if self.cat is not None and (amount or problems):
-                    self._note_other_scope(i, e)
-                continue
-            for p in problems:
-                self.problems.append((i, p))
-            if not amount:
-                continue
-            if days and days[-1] == o:
-                amounts[-1] += amount
-                ids[-1].append(e.id)
-            else:
-                days.append(o)
-                amounts.append(amount)
-                ids.append([e.id])
-        return _TaskSeries(task, window, days, amounts, ids)
+        lo = max(self.lower, task.entries_from.toordinal() if task.entries_from else -_INF)
+        hi = min(self.limit_ord, task.entries_until.toordinal() if task.entries_until else _INF)
+        first = bisect_left(self.index.ords, lo) if lo > -_INF else 0
+        buckets = self.index.buckets(task.unit, task.conditions, task.hand_flown_only, first)
+        chosen = tuple(
+            k for k in buckets
+            if k[0] in task.devices and (self.cat is None or k[1] == self.cat) and (self.cls is None or k[2] == self.cls)
+        )
+        cache_key = (task.unit, task.conditions, task.hand_flown_only, chosen, lo, hi, window, task.minimum_units)
+        cached = self.index.series_cache.get(cache_key)
+        if cached is None:
+            cached = self.index.series_cache[cache_key] = self._build_series(task, window, buckets, chosen, lo, hi)
+        return cached
 
-    def _note_other_scope(self, i: int, e: Entry) -> None:
-        if self.req.scope == r.SCOPE_CATEGORY_CLASS:
-            if e.category == self.cat and e.aircraft_class is None and e.device == "aircraft":
-                self.problems.append((i, "aircraft class not logged, so it cannot count for a class"))
-            return
-        others = {s.split("/", 1)[0] for s in self.covered_scopes}
-        if e.category not in others:
-            self.problems.append(
-                (i, f"work in another category ({e.category}) is not credited: experience counts per aircraft category")
+    def _build_series(self, task: r.Task, window: Window, buckets: dict, chosen: tuple, lo: int, hi: int) -> _TaskSeries:
+        parts = []
+        for key in chosen:
+            ords, amounts, idxs = buckets[key]
+            a = bisect_left(ords, lo)
+            b = bisect_right(ords, hi)
+            if a < b:
+                parts.append((ords, amounts, idxs, a, b))
+        if not parts:
+            return _TaskSeries(task, window, [], [], [], self.index.entries)
+        if len(parts) == 1:
+            ords, amounts, idxs, a, b = parts[0]
+            return _TaskSeries(task, window, ords[a:b], amounts[a:b], idxs[a:b], self.index.entries)
+        rows = sorted(
+            zip(
+                [o for p in parts for o in p[0][p[3]:p[4]]],
+                [i for p in parts for i in p[2][p[3]:p[4]]],
+                [x for p in parts for x in p[1][p[3]:p[4]]],
             )
+        )
+        days, idxs, sums = (list(t) for t in zip(*rows))
+        return _TaskSeries(task, window, days, sums, idxs, self.index.entries)
+
+    def _problems(self, first: int) -> list[tuple[int, str]]:
+        """(entry index, reason) for work from entry ``first`` on that this requirement does not credit."""
+        out: list[tuple[int, str]] = []
+        tasks = {}
+        for path in self.req.paths:
+            for task in path.tasks:
+                tasks.setdefault((task.unit, task.conditions, task.hand_flown_only), set()).update(task.devices)
+        others = {s.split("/", 1)[0] for s in self.covered_scopes}
+        entries = self.index.entries
+        for i in range(first, self.limit):
+            e = entries[i]
+            for (unit, conditions, hand), devices in tasks.items():
+                if e.device not in devices or not _may_have(e, unit):
+                    continue
+                amount, problems = units_on(e, unit, conditions, hand)
+                if not (amount or problems):
+                    continue
+                if self._in_scope(e):
+                    out.extend((i, p) for p in problems)
+                elif self.req.scope == r.SCOPE_CATEGORY_CLASS:
+                    if e.category == self.cat and e.aircraft_class is None and e.device == "aircraft":
+                        out.append((i, "aircraft class not logged, so it cannot count for a class"))
+                elif self.cat is not None and e.category not in others:
+                    out.append(
+                        (i, f"work in another category ({e.category}) is not credited: experience counts per aircraft category")
+                    )
+        return out
+
+    def unit_days(self) -> set[int]:
+        """Days on which anything this requirement counts was done or starts counting."""
+        days = {c.day for c in self.checks}
+        for _path, series in self.paths:
+            for s in series:
+                days.update(s.days)
+                days.update(s.starts)
+        return days
 
     def _checks(self) -> list[_Check]:
-        if not self.req.checks:
-            return []
-        out: list[_Check] = []
-        expiry: int | None = None
-        entries = self.index.entries
-        for i, o in self.index.checks():
-            if i >= self.limit:
-                break
-            e = entries[i]
-            day = e.date
-            for kind in e.checks:
-                rule = next(
-                    (c for c in self.req.checks if kind in c.kinds and c.is_in_force(day)
-                     and (not c.same_category or self.cat is None or e.category == self.cat)),
-                    None,
-                )
-                if rule is None:
-                    continue
-                if (
-                    expiry is not None
-                    and rule.early_renewal is not None
-                    and early_window_start(rule.early_renewal, date.fromordinal(expiry)).toordinal() <= o <= expiry
-                ):
-                    new = _end(rule.window, expiry)
-                else:
-                    new = _end(rule.window, o)
-                if expiry is not None and expiry >= o:
-                    new = max(new, expiry)
-                expiry = new
-                out.append(_Check(o, new, e.id))
-                break
-        return out
+        return _checks_for(self.req, self.cat, self.index, self.limit)
 
     def _tasks_restore(self, start: int, last_current: int | None) -> bool:
         if last_current is None or start <= last_current + 1:
@@ -707,25 +869,33 @@ class _Judged:
         return LAPSED, last, None, "check"
 
     def _projected_end(self, day: int) -> int:
-        sets = []
-        for path, series in self.paths:
+        spans: list[tuple[int, int]] = []
+        for (path, series), (lo, hi, simple) in zip(self.paths, self._path_bounds):
+            if simple:
+                if len(series) == 1:
+                    e = series[0].tail_end(day)
+                else:
+                    e = min(s.tail_end(day) for s in series)
+                start = day if day > lo else lo
+                if e > hi:
+                    e = hi
+                if e >= start:
+                    spans.append((start, e))
+                continue
             met = series[0].tail(day)
             for s in series[1:]:
                 if not met:
                     break
                 met = _intersect(met, s.tail(day))
-            lo = path.effective_from.toordinal() if path.effective_from else -_INF
-            hi = path.effective_until.toordinal() if path.effective_until else _INF
-            sets.append(_clip(met, lo, hi))
-        expiry = None
-        for c in self.checks:
-            if c.day > day:
-                break
-            expiry = c.expiry if expiry is None else max(expiry, c.expiry)
-        if expiry is not None and expiry >= day:
-            sets.append([(day, expiry)])
+            if met:
+                spans.extend(_clip(met, lo, hi))
+        k = bisect_right(self._check_days, day) - 1
+        if k >= 0 and self._check_reach[k] >= day:
+            spans.append((day, self._check_reach[k]))
         end = day
-        for s, e in _union(sets):
+        if len(spans) > 1:
+            spans.sort()
+        for s, e in spans:
             if s <= end + 1 and e > end:
                 end = e
         return end
@@ -777,8 +947,9 @@ class _Judged:
         out: list[str] = []
         seen: set[tuple[int, str]] = set()
         entries = self.index.entries
-        for i, msg in sorted(self.problems, key=lambda p: (p[0], p[1])):
-            if self.index.ords[i] < horizon or (i, msg) in seen:
+        first = bisect_left(self.index.ords, horizon)
+        for i, msg in self._problems(first):
+            if (i, msg) in seen:
                 continue
             seen.add((i, msg))
             e = entries[i]
@@ -813,6 +984,46 @@ def _merge(logbook: Logbook, planned: Sequence[Entry]) -> list[Entry]:
     return entries
 
 
+def _span_days(window: Window) -> int:
+    """More days than can ever lie between work and the last day it counts."""
+    if window.unit == "days":
+        return window.length + 1
+    if window.unit == "years-to-the-day":
+        return 366 * window.length + 1
+    return 31 * (window.length + 1)
+
+
+def _judge_as_of(rs, req, scope, index: _Index, limit: int, day: int, scopes) -> _Judged:
+    """Judge a requirement as of ``day`` looking back only as far as the answer needs.
+
+    * Met only by checks: no task work to read.
+    * Tasks always restore it: the state depends only on the work in the
+      window; look back further (4x at a time) only to find when the most
+      recent period ended.
+    * Grace or check-only restoring: the history matters, but a check resets
+      it: start from the work that still counts on the day of the last check.
+    """
+    if not req.paths:
+        return _Judged(rs, req, scope, index, limit, scopes, lower=day + 1)
+    cat = _scope_filter(req, scope)[0]
+    checks = _checks_for(req, cat, index, limit)
+    span = max(_span_days(p.window) for p in req.paths)
+    first = index.ords[0] if index.ords else day
+    if req.regain != r.REGAIN_TASKS:
+        lower = checks[-1].day - span if checks else -_INF
+        return _Judged(rs, req, scope, index, limit, scopes, lower=lower, checks=checks)
+    lookback = span
+    while True:
+        lower = day - lookback
+        judged = _Judged(rs, req, scope, index, limit, scopes, lower=lower, checks=checks)
+        if lower <= first:
+            return judged
+        state, through, _by, _with = judged.stand(day, project=False)
+        if state == CURRENT or (through is not None and through >= lower + span):
+            return judged
+        lookback *= 4
+
+
 def evaluate(
     logbook: Logbook, rule_sets: Sequence[r.RuleSet], as_of: date, planned: Sequence[Entry] = ()
 ) -> CurrencyReport:
@@ -822,12 +1033,12 @@ def evaluate(
     after it are ignored. ``planned`` entries are treated exactly like logged
     ones (for what-if questions; see ``what_if``).
     """
-    index = _Index(_merge(logbook, planned))
-    limit = index.upto(as_of.toordinal())
+    index = _Index(e for e in _merge(logbook, planned) if e.date <= as_of)
+    limit = len(index.entries)
     day = as_of.toordinal()
     statuses = []
     for rs, req, scope, scopes in _instances(logbook, rule_sets):
-        judged = _Judged(rs, req, scope, index, limit, scopes)
+        judged = _judge_as_of(rs, req, scope, index, limit, day, scopes)
         state, through, regain_by, regain_with = judged.stand(day, project=False)
         statuses.append(
             RequirementStatus(
@@ -865,15 +1076,14 @@ def timeline(
     """
     if end < start:
         raise ValueError("timeline end is before its start")
-    index = _Index(_merge(logbook, planned))
-    limit = index.upto(end.toordinal())
+    index = _Index(e for e in _merge(logbook, planned) if e.date <= end)
+    limit = len(index.entries)
     lo, hi = start.toordinal(), end.toordinal()
-    entry_days = sorted(set(index.ords[index.upto(lo - 1):limit]))
     out = []
     for rs, req, scope, scopes in _instances(logbook, rule_sets):
         judged = _Judged(rs, req, scope, index, limit, scopes)
         candidates = {lo}
-        candidates.update(entry_days)
+        candidates.update(judged.unit_days())
         for s, e in judged.periods:
             candidates.add(s)
             candidates.add(e + 1)

@@ -17,6 +17,7 @@ Crediting policy (the same written policy the engine documents):
 
 from __future__ import annotations
 
+import bisect
 import calendar
 from datetime import date, timedelta
 from functools import lru_cache
@@ -211,8 +212,14 @@ class Reference:
 
     def have(self, path_index: int, task_index: int, day: date) -> int:
         window = self.req.paths[path_index].window
+        units = self.units[path_index][task_index]
+        # Skip work older than any window can reach (a plain bound: 31 days a month).
+        reach = {"days": window.length + 1, "years-to-the-day": 366 * window.length + 1}.get(
+            window.unit, 31 * (window.length + 1)
+        )
+        first = bisect.bisect_left(units, (day - timedelta(days=reach),))
         total = 0
-        for d, n in self.units[path_index][task_index]:
+        for d, n in units[first:]:
             if d > day:
                 break  # units are in date order
             if counts_on(window, d, day):
