@@ -8,9 +8,11 @@ import sys
 from datetime import date, datetime
 
 import planner
-from planner import rulesets
+from planner import rulesets, services
+from planner.cli.data import open_session
 from planner.core import currency
 from planner.core.logbook import Entry, Logbook
+from planner.export import interchange
 
 
 class CommandError(Exception):
@@ -26,7 +28,7 @@ def _date_arg(text: str) -> date:
 
 def _add_source(p: argparse.ArgumentParser) -> None:
     source = p.add_mutually_exclusive_group(required=True)
-    source.add_argument("--logbook", metavar="FILE", help="a logbook in the interchange JSON format")
+    source.add_argument("--logbook", metavar="FILE", help="a logbook file in the interchange format (.json or .csv)")
     source.add_argument("--pilot", metavar="ID", type=int, help="a pilot in the database")
     p.add_argument(
         "--rules",
@@ -69,14 +71,12 @@ def register(sub: argparse._SubParsersAction) -> None:
 # ------------------------------------------------------------------ loading
 
 
-def _read_interchange(text: str) -> Logbook:
-    """Parse interchange JSON (the reader lives in ``planner.export.interchange``)."""
-    from planner.export import interchange  # imported lazily: owned by the data work
-
+def _read_interchange(path: str) -> Logbook:
+    """Read an interchange file (JSON or CSV, by its extension)."""
     try:
-        return interchange.read_json(text)
+        return interchange.read(_read_file(path), path)
     except interchange.InterchangeError as exc:
-        raise CommandError(str(exc)) from exc
+        raise CommandError(f"{path}: {exc}") from exc
 
 
 def _read_file(path: str) -> str:
@@ -88,12 +88,6 @@ def _read_file(path: str) -> str:
 
 
 def _load_pilot_logbook(pilot_id: int) -> Logbook:
-    try:
-        from planner import services
-        from planner.cli.data import open_session  # imported lazily: owned by the data work
-    except ImportError as exc:  # pragma: no cover - until the database work is merged
-        raise CommandError(f"reading a pilot from the database is not available: {exc}") from exc
-
     with open_session() as session:
         try:
             return services.load_logbook(session, pilot_id)
@@ -102,19 +96,8 @@ def _load_pilot_logbook(pilot_id: int) -> Logbook:
 
 
 def _load(args) -> tuple[Logbook, tuple[Entry, ...]]:
-    if args.logbook:
-        try:
-            logbook = _read_interchange(_read_file(args.logbook))
-        except CommandError as exc:
-            raise CommandError(f"{args.logbook}: {exc}") from exc
-    else:
-        logbook = _load_pilot_logbook(args.pilot)
-    planned: tuple[Entry, ...] = ()
-    if args.planned:
-        try:
-            planned = _read_interchange(_read_file(args.planned)).entries
-        except CommandError as exc:
-            raise CommandError(f"{args.planned}: {exc}") from exc
+    logbook = _read_interchange(args.logbook) if args.logbook else _load_pilot_logbook(args.pilot)
+    planned = _read_interchange(args.planned).entries if args.planned else ()
     return logbook, planned
 
 

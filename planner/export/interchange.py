@@ -37,7 +37,7 @@ Rules (the same for both formats; docs/interchange.md has the full list):
   <= the number of approaches;
 * check kinds, classes and category/class pairs are lowercase words joined by
   hyphens (``ipc``, ``flight-review``, ``instrument-practical-test`` or a
-  rule-set-defined kind such as ``easa-ir-proficiency-check``);
+  rule-set-defined kind such as ``ir-proficiency-check``);
 * approach type, airfield and runway may not contain ``|`` or ``;`` (they
   separate approaches in a CSV cell) nor start or end with a space;
 * optional text that is empty means "not logged": "" and null are the same,

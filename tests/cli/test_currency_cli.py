@@ -1,54 +1,20 @@
 """`planner evaluate` and `planner timeline` on a logbook file.
 
-The interchange reader belongs to the data work; until it is merged these tests
-stand in a minimal reader for the few fields they use.
+Logbook files are read by the real interchange reader.
 """
 
 from __future__ import annotations
 
 import json
-from datetime import date
 
 import pytest
 
 import planner
-from planner.cli import currency as cli_currency
 from planner.cli import main
-from planner.core.logbook import Approach, Entry, Logbook, Pilot
-
-
-def _minimal_reader(text: str) -> Logbook:
-    data = json.loads(text)
-    p = data.get("pilot", {})
-    entries = []
-    for e in data["entries"]:
-        entries.append(
-            Entry(
-                id=e["id"],
-                date=date.fromisoformat(e["date"]),
-                aircraft_class=e.get("class"),
-                conditions=e.get("conditions"),
-                approaches=tuple(Approach(a["type"], a["airfield"]) for a in e.get("approaches", [])),
-                holds=e.get("holds", 0),
-                course_tracking=e.get("course_tracking", False),
-                landings=e.get("landings", 0),
-                checks=tuple(e.get("checks", [])),
-            )
-        )
-    return Logbook(
-        pilot=Pilot(
-            name=p.get("name", "?"),
-            home_timezone=p.get("home_timezone"),
-            instrument_categories=tuple(p.get("instrument_categories", [])),
-            category_classes=tuple(p.get("category_classes", [])),
-        ),
-        entries=tuple(entries),
-    )
 
 
 @pytest.fixture
-def logbook_file(tmp_path, monkeypatch):
-    monkeypatch.setattr(cli_currency, "_read_interchange", _minimal_reader)
+def logbook_file(tmp_path):
     ap = [{"type": "ILS", "airfield": "XQA1"}] * 6
     doc = {
         "format_version": 1,

@@ -224,7 +224,7 @@ def test_signe_passed_the_instrument_practical_test_in_october():
 
 def test_rafael_holds_two_licences_and_had_an_easa_check_in_february():
     book = load("rafael")
-    (check,) = [e for e in book.entries if "easa-ir-proficiency-check" in e.checks]
+    (check,) = [e for e in book.entries if "ir-proficiency-check" in e.checks]
     assert check.date.isoformat().startswith("2026-02") and check.device == "ffs"
     assert "airplane/multi-engine-land" in book.pilot.category_classes
     assert stage_on_as_of(book) == "current"
