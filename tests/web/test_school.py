@@ -99,7 +99,9 @@ def test_filter_lapses_within_n_days(app: Flask, client: FlaskClient, days: int)
     ("show", "expected"),
     [
         ("grace", {"Tobias Lindqvist"}),
-        ("check", {"Priya Castellano", "Rafael Okonkwo-Berg"}),
+        # Priya: instrument currency ended 2026-02-28, past the 61.57(d) grace stage, so only an IPC restores it.
+        # (Rafael's EASA rating is valid to 2027-02-14 from his 2026-02-14 check, FCL.625: he needs none.)
+        ("check", {"Priya Castellano"}),
         ("practice", {"Tobias Lindqvist", "Priya Castellano", "Dev Halloran", "Signe Mbeki"}),
     ],
 )
