@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import json
 import re
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from functools import lru_cache
 from datetime import UTC, date, datetime, time, timedelta
@@ -20,22 +20,37 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 from sqlalchemy.orm import Session
 from werkzeug.security import generate_password_hash
 
+from planner import rulesets
+from planner.core import currency
 from planner.core import logbook as core_logbook
-from planner.core.logbook import CATEGORIES, Logbook
-from planner.db import models, repository
+from planner.core.logbook import CATEGORIES, Entry, Logbook
+from planner.core.rules import RuleSet
+from planner.db import lookups, models, repository
+from planner.rulesets import overrides
 from planner.db.repository import EntryConflict, EntryRejected
 
 __all__ = [
     "DemoAccount",
     "EntryConflict",
     "EntryRejected",
+    "OverviewRow",
+    "PilotStatus",
     "SeedError",
+    "SettingsRejected",
+    "airfields",
+    "builtin_rule_set",
+    "currency_report",
     "export_logbook",
     "get_pilot",
     "import_logbook",
+    "is_practice",
     "list_pilots",
     "load_demo",
     "load_logbook",
+    "pilot_status",
+    "rule_sets_for",
+    "school_overview",
+    "update_settings",
 ]
 
 Progress = Callable[[str], None]
@@ -628,22 +643,170 @@ def record_sign_in_success(session: Session, email: str, address: str | None) ->
 
 
 @lru_cache(maxsize=64)
-def _builtin_rule_sets(names: tuple[str, ...]) -> tuple[Any, ...]:
-    from planner import rulesets
-
-    return tuple(rulesets.resolve(list(names)))
-
-
-def rule_sets_for(person: models.Person) -> tuple[Any, ...]:
-    """The built-in rule sets the person follows (names that are not built-in are left out, never read as paths)."""
-    from planner import rulesets
-
-    names = tuple(n for n in dict.fromkeys(person.rule_sets or []) if n in rulesets.builtin_names())
-    return _builtin_rule_sets(names) if names else ()
-
-
 def explain_entry(person: models.Person, entry: core_logbook.Entry) -> list[Any]:
     """What ``entry`` would count toward for ``person`` under their rule sets (``planner.core.credit.CreditNote`` list)."""
     from planner.core import credit
 
     return credit.explain(entry, repository.pilot_to_core(person), rule_sets_for(person))
+# ---------------------------------------------------------------- currency for the web pages
+
+PRACTICE_TARGETS = "practice-targets"
+DEFAULT_RULE_SETS = ("faa-part61",)
+
+
+@lru_cache(maxsize=None)
+def builtin_rule_set(name: str) -> RuleSet:
+    """A built-in rule set (parsed once)."""
+    return rulesets.load_builtin(name)
+
+
+def rule_sets_for(person: models.Person) -> tuple[RuleSet, ...]:
+    """The rule sets ``person`` follows (default ``faa-part61``), practice targets with their own overrides."""
+    out = []
+    # Only built-in names are honoured here: a stored name is never read as a file path.
+    names = [n for n in dict.fromkeys(person.rule_sets or DEFAULT_RULE_SETS) if n in rulesets.builtin_names()]
+    for name in names:
+        rule_set = builtin_rule_set(name)
+        if name == PRACTICE_TARGETS and person.practice_targets:
+            rule_set = overrides.apply(rule_set, person.practice_targets)
+        out.append(rule_set)
+    return tuple(out)
+
+
+@dataclass(frozen=True)
+class PilotStatus:
+    """What the dashboard shows: the report as of ``as_of``, the timeline, and a what-if if asked."""
+
+    pilot_id: int
+    rule_sets: tuple[RuleSet, ...]
+    report: currency.CurrencyReport
+    timeline: currency.TimelineReport | None = None
+    what_if: currency.WhatIfReport | None = None
+
+
+def pilot_status(
+    session: Session,
+    pilot_id: int,
+    as_of: date,
+    *,
+    timeline_range: tuple[date, date] | None = None,
+    planned: Sequence[Entry] = (),
+) -> PilotStatus:
+    """Evaluate the pilot's rule sets as of ``as_of``; with ``planned``, also how each date moves.
+
+    The timeline (when ``timeline_range`` is given) includes the planned entries.
+    Nothing is written. Raises ``LookupError`` for an unknown pilot.
+    """
+    person = get_pilot(session, pilot_id)
+    logbook = load_logbook(session, pilot_id)
+    sets = rule_sets_for(person)
+    report = currency.evaluate(logbook, sets, as_of)
+    chart = None
+    if timeline_range is not None:
+        chart = currency.timeline(logbook, sets, timeline_range[0], timeline_range[1], planned)
+    moves = currency.what_if(logbook, sets, as_of, planned) if planned else None
+    return PilotStatus(pilot_id, sets, report, chart, moves)
+
+
+def currency_report(
+    session: Session, pilot_id: int, as_of: date, planned: Sequence[Entry] = ()
+) -> currency.CurrencyReport:
+    """The engine's report for the pilot's own rule sets as of ``as_of`` (planned entries included if given)."""
+    person = get_pilot(session, pilot_id)
+    return currency.evaluate(load_logbook(session, pilot_id), rule_sets_for(person), as_of, planned)
+
+
+@dataclass(frozen=True)
+class OverviewRow:
+    """One pilot of the school overview.
+
+    ``soonest``: the earliest ``valid_through`` among the pilot's regulatory
+    requirements that were ever met (past dates for lapsed ones), None if none
+    was ever met; rows sort by it.
+    """
+
+    pilot_id: int
+    name: str
+    statuses: tuple[currency.RequirementStatus, ...]
+    soonest: date | None
+
+
+def is_practice(status: currency.RequirementStatus) -> bool:
+    """Whether a status belongs to the personal practice targets (not regulation)."""
+    return status.rule_set == PRACTICE_TARGETS
+
+
+def school_overview(session: Session, school_id: int, as_of: date) -> list[OverviewRow]:
+    """Every pilot of the school with every requirement as of ``as_of``, soonest lapse first.
+
+    Pilots with nothing ever met sort last, then by name.
+    """
+    rows = []
+    for person in lookups.school_pilots(session, school_id):
+        report = currency.evaluate(load_logbook(session, person.id), rule_sets_for(person), as_of)
+        dates = [s.valid_through for s in report.requirements if not is_practice(s) and s.valid_through]
+        rows.append(OverviewRow(person.id, person.name, report.requirements, min(dates) if dates else None))
+    rows.sort(key=lambda row: (row.soonest is None, row.soonest or date.max, row.name))
+    return rows
+
+
+# ---------------------------------------------------------------- per-pilot settings
+
+
+class SettingsRejected(ValueError):
+    """A settings value is not acceptable; ``field`` names the form field."""
+
+    def __init__(self, field: str, message: str) -> None:
+        super().__init__(f"{field}: {message}")
+        self.field = field
+        self.message = message
+
+
+def airfields(session: Session) -> list[models.Airfield]:
+    """The airfields a pilot may choose as home, by identifier."""
+    return lookups.airfields(session)
+
+
+def update_settings(
+    session: Session,
+    pilot_id: int,
+    *,
+    rule_sets: Sequence[str],
+    practice_targets: dict[str, Any],
+    home_airfield: str | None,
+    timezone: str,
+) -> models.Person:
+    """Validate and stage the pilot's settings; nothing is changed when anything is refused.
+
+    ``rule_sets``: built-in names (at least one); ``practice_targets``: overrides
+    (see ``planner.rulesets.overrides``); ``home_airfield``: an airfield ident or
+    None; ``timezone``: an IANA name. Raises ``SettingsRejected`` naming the field.
+    """
+    person = get_pilot(session, pilot_id)
+    names = list(dict.fromkeys(rule_sets))
+    if not names:
+        raise SettingsRejected("rule_sets", "choose at least one rule set")
+    for name in names:
+        if name not in rulesets.builtin_names():
+            raise SettingsRejected("rule_sets", f"unknown rule set {name!r}")
+    try:
+        canon = overrides.validate(builtin_rule_set(PRACTICE_TARGETS), practice_targets)
+    except rulesets.RuleSetError as exc:
+        raise SettingsRejected("practice_targets", str(exc)) from None
+    chosen = None
+    if home_airfield:
+        chosen = next((a for a in lookups.airfields(session) if a.ident == home_airfield), None)
+        if chosen is None:
+            raise SettingsRejected("home_airfield", f"unknown airfield {home_airfield!r}")
+    try:
+        if not timezone or timezone != timezone.strip():
+            raise ValueError
+        ZoneInfo(timezone)
+    except (ValueError, ZoneInfoNotFoundError):
+        raise SettingsRejected("timezone", f"not a known IANA time zone name: {timezone!r}") from None
+    person.rule_sets = names
+    person.practice_targets = canon
+    person.home_airfield = chosen
+    person.timezone = timezone
+    session.flush()
+    return person
