@@ -9,7 +9,6 @@ from dateutil.relativedelta import relativedelta
 from flask import Blueprint, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
-from werkzeug.routing import BuildError
 from wtforms import (
     BooleanField,
     DateField,
@@ -205,18 +204,6 @@ def _label(regulators: dict[str, str]):  # type: ignore[no-untyped-def]
     return label
 
 
-def _entry_url(pilot_id: int, ref: str) -> str | None:
-    """The logbook page of one entry.
-
-    TEMPORARY: None while the logbook pages (another branch) are not merged,
-    so that the dashboard shows the entry id without a link instead of failing.
-    """
-    try:
-        return url_for("logbook.show", pilot_id=pilot_id, ref=ref)
-    except BuildError:
-        return None
-
-
 def _item(status: currency.RequirementStatus, as_of: date, pilot_id: int) -> dict[str, Any]:
     practice = services.is_practice(status)
     return {
@@ -233,7 +220,7 @@ def _item(status: currency.RequirementStatus, as_of: date, pilot_id: int) -> dic
         "regain_by": status.regain_by,
         "citation": status.citation,
         "warnings": status.warnings,
-        "evidence": [(ref, _entry_url(pilot_id, ref)) for ref in status.evidence],
+        "evidence": [(ref, url_for("logbook.show", pilot_id=pilot_id, ref=ref)) for ref in status.evidence],
     }
 
 

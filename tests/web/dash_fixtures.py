@@ -44,20 +44,9 @@ def build_demo_database(base: Path) -> Path:
     return path
 
 
-def _logbook_show_stub(pilot_id: int, ref: str) -> str:
-    return ref
-
-
-_logbook_show_stub.test_stub = True  # type: ignore[attr-defined]
-
-
 def make_app(path: Path, tmp_path: Path, **config: object) -> Flask:
     settings = Settings(database_url=f"sqlite:///{path}", secret_key="test-secret", instance_dir=tmp_path, seed_dir=tmp_path)
-    app = create_app(settings, TESTING=True, PLANNER_TODAY=AS_OF.isoformat(), **config)
-    if "logbook.show" not in app.view_functions:
-        # TEMPORARY test-only stand-in until the logbook pages are merged: evidence links point at it.
-        app.add_url_rule("/pilots/<int:pilot_id>/logbook/<ref>", endpoint="logbook.show", view_func=_logbook_show_stub)
-    return app
+    return create_app(settings, TESTING=True, PLANNER_TODAY=AS_OF.isoformat(), **config)
 
 
 @pytest.fixture(scope="module")

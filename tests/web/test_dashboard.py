@@ -115,15 +115,30 @@ def test_a_pilot_under_two_regulators_sees_both_grouped(client: FlaskClient) -> 
     assert page.index('id="req-faa-part61-instrument-airplane"') < easa < page.index('id="req-easa-fcl-instrument-rating-airplane"')
 
 
-def test_evidence_links_name_entries_of_that_pilot(app: Flask, client: FlaskClient) -> None:
-    pid = person_id(app, "mara")
-    sign_in(client, "mara")
-    page = client.get("/").get_data(as_text=True)
-    refs = re.findall(rf'href="/pilots/{pid}/logbook/([^"]+)"', page)
-    assert "mara-2026-11-14" in refs
+@pytest.mark.parametrize("who", PILOTS)
+def test_every_evidence_link_opens_that_entry_of_that_pilot(app: Flask, client: FlaskClient, who: str) -> None:
+    pid = person_id(app, who)
+    report = _engine_report(app, pid)
     with app.app_context():
-        for ref in set(refs):
-            assert repository.find_entry(db_session(), pid, ref) is not None, ref
+        dates = {e.id: e.date for e in services.load_logbook(db_session(), pid).entries}
+    sign_in(client, who)
+    page = client.get("/").get_data(as_text=True)
+    followed = 0
+    for status in report.requirements:
+        block = _article(page, status)
+        evidence = re.findall(r'<dd class="evidence">(.*?)</dd>', block, re.S)[0]
+        links = re.findall(r'<a href="([^"]+)">([^<]+)</a>', evidence)
+        assert [html.unescape(text) for _, text in links] == list(status.evidence)
+        for href, text in links:
+            ref = html.unescape(text)
+            opened = client.get(html.unescape(href))
+            assert opened.status_code == 200, href
+            shown = opened.get_data(as_text=True)
+            heading = _text(re.search(r"<h1>.*?</h1>", shown, re.S).group(0)).strip()
+            # The page opened is that entry: its date (from the pilot's own logbook) and its id.
+            assert heading == f"Entry of {dates[ref].isoformat()} ({ref})", href
+            followed += 1
+    assert followed > 0, f"{who}: the engine names no evidence at all"
 
 
 def test_instructor_sees_a_pilot_of_the_school_and_lands_on_the_overview(app: Flask, client: FlaskClient) -> None:
