@@ -25,9 +25,6 @@ from tests.web.test_logbook import (  # noqa: F401  (web_database is a fixture)
     web_database,
 )
 
-ROLES = ("anonymous", "pilot", "other_pilot", "instructor", "other_instructor", "admin")
-
-
 @pytest.fixture
 def app(web_database: Path, tmp_path: Path) -> Iterator[Flask]:  # noqa: F811
     application = make_app(web_database, tmp_path)
@@ -66,26 +63,7 @@ def post(client: FlaskClient, url: str, data: dict[str, Any]):  # type: ignore[n
     return client.post(url, data={**data, "csrf_token": token})
 
 
-@pytest.mark.parametrize("role", ROLES)
-@pytest.mark.parametrize("route", ["list", "new", "edit", "create", "update"])
-def test_people_pages_answer_only_to_the_schools_admin(app: Flask, role: str, route: str) -> None:
-    client = app.test_client()
-    act_as(client, app, role)
-    target = person_id(app, "pilot")
-    app.config["WTF_CSRF_ENABLED"] = False  # access alone is tested here
-    path = {"list": "/admin/people", "new": "/admin/people/new", "edit": f"/admin/people/{target}/edit",
-            "create": "/admin/people/new", "update": f"/admin/people/{target}/edit"}[route]
-    if route in ("create", "update"):
-        data = person_form(password="") if route == "update" else person_form()
-        if route == "update":
-            data.update(name="Mara Oyelaran", email=EMAILS["pilot"])
-        response = client.post(path, data=data)
-        ok = 302
-    else:
-        response = client.get(path)
-        ok = 200
-    expected = {"anonymous": 302, "admin": ok}.get(role, 404)
-    assert response.status_code == expected, (role, route)
+# Which visitor may open or post each people page: tests/web/test_authorization_matrix.py (the app's one matrix).
 
 
 def test_an_admin_cannot_reach_people_of_another_school(client: FlaskClient, app: Flask) -> None:

@@ -1,11 +1,22 @@
-"""Every route of the app × every kind of visitor, with the status each must get.
+"""Every route of the app × every kind of visitor, with the status each must get: the app's one access matrix.
 
 The routes are read from ``app.url_map``: a route (or method) added without a
 row here fails ``test_every_route_has_a_row``. CSRF is switched off in this
 module's app so that the answers show the access rule itself; CSRF is tested
-with the forms (tests/web/test_sign_in.py, test_dashboard.py, test_settings.py).
-Requests carry no form data: an allowed POST answers with its validation
-status, never by changing anything.
+with the forms (tests/web/test_sign_in.py, test_logbook.py, test_dashboard.py,
+test_settings.py, test_admin.py).
+
+The rule (planner.web.access and planner.web.admin): a pilot sees and edits
+their own logbook; an instructor of the same school views and edits it; the
+school admin of the same school views it but does not edit it, and alone
+manages the school's people; anyone else gets 404 (so probing ids reveals
+nothing); anonymous visitors are sent to sign in.
+
+Writes (new entry, edit, delete, restore, new person, edit person) post a
+complete, valid form, so an allowed write answers with its success redirect;
+every other POST carries no form data and answers with its validation status.
+Each case then checks the database: only a write the visitor is allowed to
+make changes anything, and it changes what it should.
 
 Subjects: ``pilot`` is Mara (the pilot whose ids appear in the URLs); ``other
 pilot`` is Tobias of the same school; ``instructor`` is Hollis (same school,
@@ -16,14 +27,21 @@ no logbook); ``instructor elsewhere`` teaches at a second, invented school;
 from __future__ import annotations
 
 import shutil
+from collections.abc import Callable, Iterator
+from datetime import UTC, date, datetime
 from pathlib import Path
+from typing import Any
 
 import pytest
 from flask import Flask
+from sqlalchemy import func, select
 
-from planner.db import repository
+from planner.core.logbook import Entry
+from planner.db import models, repository
 from planner.web import db_session
-from tests.web.dash_fixtures import OTHER_SCHOOL, add_other_school, make_app, person_id
+from tests.web.dash_fixtures import OTHER_SCHOOL, add_other_school, build_demo_database, make_app, person_id
+from tests.web.test_admin import person_form
+from tests.web.test_logbook import form_data
 
 ROLES = ("anonymous", "pilot", "other_pilot", "instructor", "instructor_elsewhere", "admin")
 
@@ -45,28 +63,65 @@ MATRIX: dict[tuple[str, str], tuple[int, ...]] = {
     ("settings.index", "POST"): (302, 400, 400, 200, 200, 200),
     ("settings.pilot", "GET"): (302, 200, 404, 200, 404, 200),
     ("settings.pilot", "POST"): (302, 400, 404, 400, 404, 400),
-    # Placeholders of areas built on other branches (rows to be replaced when they land).
-    ("logbook.index", "GET"): (302, 200, 200, 200, 200, 200),
-    ("admin.people", "GET"): (302, 200, 200, 200, 200, 200),
+    # Logbook: "/logbook" sends each visitor on (see test_my_logbook_sends_each_visitor_somewhere_sensible).
+    ("logbook.mine", "GET"): (302, 302, 302, 302, 302, 302),
+    # Reading: the pilot, and the instructors and the admin of the same school.
+    ("logbook.index", "GET"): (302, 200, 404, 200, 404, 200),
+    ("logbook.show", "GET"): (302, 200, 404, 200, 404, 200),
+    # Writing: the pilot and the instructors of the same school; not the admin.
+    ("logbook.create", "GET"): (302, 200, 404, 200, 404, 404),
+    ("logbook.create", "POST"): (302, 302, 404, 302, 404, 404),
+    ("logbook.edit", "GET"): (302, 200, 404, 200, 404, 404),
+    ("logbook.edit", "POST"): (302, 302, 404, 302, 404, 404),
+    ("logbook.delete", "POST"): (302, 302, 404, 302, 404, 404),
+    ("logbook.restore", "POST"): (302, 302, 404, 302, 404, 404),
+    # The live credit notes need write access too (they belong to the entry form).
+    ("logbook.credit", "POST"): (302, 200, 404, 200, 404, 404),
+    # People of the school: its admin only.
+    ("admin.people", "GET"): (302, 404, 404, 404, 404, 200),
+    ("admin.create_person", "GET"): (302, 404, 404, 404, 404, 200),
+    ("admin.create_person", "POST"): (302, 404, 404, 404, 404, 302),
+    ("admin.edit_person", "GET"): (302, 404, 404, 404, 404, 200),
+    ("admin.edit_person", "POST"): (302, 404, 404, 404, 404, 302),
 }
+
+NEW_PERSON = "nadia.quell@juniper-ridge.example"  # the email in person_form()
+
+
+# ------------------------------------------------------------------ fixtures
 
 
 @pytest.fixture(scope="module")
-def matrix_app(tmp_path_factory: pytest.TempPathFactory):  # type: ignore[no-untyped-def]
-    from tests.web.dash_fixtures import build_demo_database
-
+def matrix_database(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """The demo school and a second, invented school, built once per module."""
     base = tmp_path_factory.mktemp("matrix")
     path = base / "matrix.sqlite3"
     shutil.copy(build_demo_database(base), path)
-    app = make_app(path, base, WTF_CSRF_ENABLED=False)
-    ids = add_other_school(app)
+    app = make_app(path, base)
+    add_other_school(app)
+    app.extensions["planner.engine"].dispose()
+    return path
+
+
+@pytest.fixture
+def matrix_app(matrix_database: Path, tmp_path: Path) -> Iterator[Flask]:
+    """A fresh copy per case, so that an allowed write cannot leak into the next case."""
+    path = tmp_path / "matrix.sqlite3"
+    shutil.copy(matrix_database, path)
+    app = make_app(path, tmp_path, WTF_CSRF_ENABLED=False)
+    with app.app_context():
+        other = {p.email: p.id for p in db_session().scalars(select(models.Person).where(models.Person.email.like("%@larkspur-field.example")))}
     app.config["MATRIX_IDS"] = {
         "pilot": person_id(app, "mara"),
         "other_pilot": person_id(app, "tobias"),
         "instructor": person_id(app, "hollis"),
-        "instructor_elsewhere": ids["instructor"],
+        "instructor_elsewhere": other[OTHER_SCHOOL["instructor"][0]],
         "admin": person_id(app, "wren"),
+        "pilot_elsewhere": other[OTHER_SCHOOL["pilot"][0]],
     }
+    with app.app_context():
+        # The entry whose ref appears in the URLs: Mara's first current entry.
+        app.config["MATRIX_REF"] = repository.current_entries(db_session(), app.config["MATRIX_IDS"]["pilot"])[0].external_id
     yield app
     app.extensions["planner.engine"].dispose()
 
@@ -82,17 +137,141 @@ def _routes(app: Flask) -> dict[tuple[str, str], str]:
     return out
 
 
-def test_every_route_has_a_row(matrix_app: Flask) -> None:
-    routes = set(_routes(matrix_app))
-    assert routes - set(MATRIX) == set(), "routes without a row in the authorisation matrix"
-    assert set(MATRIX) - routes == set(), "rows for routes that no longer exist"
+def _act_as(app: Flask, role: str):  # type: ignore[no-untyped-def]
+    client = app.test_client()
+    if role != "anonymous":
+        with client.session_transaction() as session:
+            session["_user_id"] = str(app.config["MATRIX_IDS"][role])
+            session["_fresh"] = True
+    return client
+
+
+# ------------------------------------------------------------------ the entry and person each case works on
+
+
+def _ref(app: Flask) -> str:
+    return app.config["MATRIX_REF"]
+
+
+def _target_entry(app: Flask) -> models.Entry:
+    """The entry whose ref appears in the URLs (deleted or not)."""
+    return repository.find_entry(db_session(), app.config["MATRIX_IDS"]["pilot"], _ref(app))
+
+
+def _delete_target(app: Flask) -> None:
+    """Set-up for restore: the entry must be deleted first."""
+    with app.app_context():
+        session = db_session()
+        repository.delete_entry(session, _target_entry(app), now=datetime(2026, 11, 30, tzinfo=UTC))
+        session.commit()
+
+
+def _request_data(app: Flask, route: tuple[str, str]) -> dict[str, Any]:
+    """A complete, valid form for each write; no data for every other POST."""
+    with app.app_context():
+        version = str(_target_entry(app).version)
+        mara = db_session().get(models.Person, app.config["MATRIX_IDS"]["pilot"])
+        mara_email = mara.email
+    return {
+        ("logbook.create", "POST"): form_data(),
+        ("logbook.edit", "POST"): form_data(version=version, date="2026-06-03"),
+        ("logbook.delete", "POST"): {"version": version},
+        ("logbook.restore", "POST"): {"version": version},
+        ("admin.create_person", "POST"): person_form(),
+        ("admin.edit_person", "POST"): person_form(name="Mara Oyelaran", email=mara_email, password="",
+                                                   medical_expires="2029-01-31"),
+    }.get(route, {})
 
 
 def _url(app: Flask, rule: str) -> str:
     ids = app.config["MATRIX_IDS"]
-    with app.app_context():
-        ref = repository.current_entries(db_session(), ids["pilot"])[0].external_id
-    return rule.replace("<int:pilot_id>", str(ids["pilot"])).replace("<ref>", ref).replace("<path:ref>", ref)
+    return (
+        rule.replace("<int:pilot_id>", str(ids["pilot"]))
+        .replace("<int:person_id>", str(ids["pilot"]))
+        .replace("<ref>", _ref(app))
+    )
+
+
+# ------------------------------------------------------------------ what a write may change
+
+
+def _state(app: Flask) -> dict[str, Any]:
+    """Everything a route could change: people (incl. settings) and every entry's version and deletion."""
+    with app.extensions["planner.sessions"]() as s:
+        people = {
+            p.email: (p.name, p.is_pilot, p.is_instructor, p.is_admin, p.password_hash, p.medical_class, p.medical_expires,
+                      p.timezone, p.home_airfield_id, tuple(p.rule_sets or ()), repr(p.practice_targets))
+            for p in s.scalars(select(models.Person))
+        }
+        entries = {
+            (e.pilot_id, e.external_id): (e.version, e.deleted_at is not None, e.date)
+            for e in s.scalars(select(models.Entry))
+        }
+        revisions = s.scalar(select(func.count()).select_from(models.EntryRevision))
+    return {"people": people, "entries": entries, "revisions": revisions}
+
+
+def _diff(before: dict[str, Any], after: dict[str, Any]) -> set[str]:
+    """Which parts of the state differ."""
+    return {key for key in before if before[key] != after[key]}
+
+
+Effect = Callable[[Flask, dict[str, Any], dict[str, Any]], None]
+
+
+def _one_more_entry_for_mara(app: Flask, before: dict[str, Any], after: dict[str, Any]) -> None:
+    pid = app.config["MATRIX_IDS"]["pilot"]
+    new = set(after["entries"]) - set(before["entries"])
+    assert len(new) == 1 and next(iter(new))[0] == pid
+    assert after["entries"][next(iter(new))][2] == date(2026, 11, 28)
+
+
+def _target_edited(app: Flask, before: dict[str, Any], after: dict[str, Any]) -> None:
+    key = (app.config["MATRIX_IDS"]["pilot"], _ref(app))
+    assert after["entries"][key][0] == before["entries"][key][0] + 1
+    assert after["entries"][key][2] == date(2026, 6, 3)
+
+
+def _target_deleted(app: Flask, before: dict[str, Any], after: dict[str, Any]) -> None:
+    key = (app.config["MATRIX_IDS"]["pilot"], _ref(app))
+    assert (before["entries"][key][1], after["entries"][key][1]) == (False, True)
+
+
+def _target_restored(app: Flask, before: dict[str, Any], after: dict[str, Any]) -> None:
+    key = (app.config["MATRIX_IDS"]["pilot"], _ref(app))
+    assert (before["entries"][key][1], after["entries"][key][1]) == (True, False)
+
+
+def _person_created(app: Flask, before: dict[str, Any], after: dict[str, Any]) -> None:
+    assert set(after["people"]) - set(before["people"]) == {NEW_PERSON}
+
+
+def _mara_changed(app: Flask, before: dict[str, Any], after: dict[str, Any]) -> None:
+    email = next(e for e in before["people"] if e.startswith("mara."))
+    assert before["people"][email][6] != date(2029, 1, 31) and after["people"][email][6] == date(2029, 1, 31)
+    assert before["people"][email][4] == after["people"][email][4], "an empty password keeps the old one"
+
+
+# (endpoint, method) -> (parts of the state an allowed write changes, how)
+WRITES: dict[tuple[str, str], tuple[set[str], Effect]] = {
+    ("logbook.create", "POST"): ({"entries"}, _one_more_entry_for_mara),  # history keeps earlier versions: none yet
+    # (placeholder),
+    ("logbook.edit", "POST"): ({"entries", "revisions"}, _target_edited),
+    ("logbook.delete", "POST"): ({"entries", "revisions"}, _target_deleted),
+    ("logbook.restore", "POST"): ({"entries", "revisions"}, _target_restored),
+    ("admin.create_person", "POST"): ({"people"}, _person_created),
+    ("admin.edit_person", "POST"): ({"people"}, _mara_changed),
+}
+
+
+# ------------------------------------------------------------------ the matrix
+
+
+def test_every_route_has_a_row(matrix_app: Flask) -> None:
+    routes = set(_routes(matrix_app))
+    assert routes - set(MATRIX) == set(), "routes without a row in the authorisation matrix"
+    assert set(MATRIX) - routes == set(), "rows for routes that no longer exist"
+    assert set(WRITES) <= set(MATRIX)
 
 
 @pytest.mark.parametrize("role", ROLES)
@@ -100,24 +279,66 @@ def _url(app: Flask, rule: str) -> str:
 def test_route_answers_each_visitor_as_expected(matrix_app: Flask, route: tuple[str, str], role: str) -> None:
     rules = _routes(matrix_app)
     assert route in rules, f"{route} is not a route of the app"
-    client = matrix_app.test_client()
-    if role != "anonymous":
-        with client.session_transaction() as session:
-            session["_user_id"] = str(matrix_app.config["MATRIX_IDS"][role])
-            session["_fresh"] = True
     endpoint, method = route
-    response = client.open(_url(matrix_app, rules[route]), method=method, data={})
+    if route == ("logbook.restore", "POST"):
+        _delete_target(matrix_app)
+    url = _url(matrix_app, rules[route])
+    data = _request_data(matrix_app, route)
+    client = _act_as(matrix_app, role)
+    before = _state(matrix_app)
+    response = client.open(url, method=method, data=data)
     expected = MATRIX[route][ROLES.index(role)]
     assert response.status_code == expected, f"{method} {endpoint} as {role}"
     if expected == 302 and role == "anonymous" and endpoint not in ("auth.logout",):
-        assert "/login" in response.headers["Location"]
+        assert response.headers["Location"].split("?")[0] == "/login"
+    changed = _diff(before, _state(matrix_app))
+    allowed_write = route in WRITES and role != "anonymous" and expected == 302
+    if allowed_write:
+        parts, effect = WRITES[route]
+        assert changed == parts, f"{method} {endpoint} as {role} changed {changed}"
+        effect(matrix_app, before, _state(matrix_app))
+    else:
+        # A refused request (or one that only reads, checks or validates) changes nothing.
+        assert changed == set(), f"{method} {endpoint} as {role} changed {changed}"
+
+
+@pytest.mark.parametrize(
+    ("role", "target"),
+    [
+        ("anonymous", "/login"),
+        ("pilot", "/pilots/{pilot}/logbook"),
+        ("other_pilot", "/pilots/{other_pilot}/logbook"),
+        ("instructor", "/school"),
+        ("instructor_elsewhere", "/school"),
+        ("admin", "/school"),
+    ],
+)
+def test_my_logbook_sends_each_visitor_somewhere_sensible(matrix_app: Flask, role: str, target: str) -> None:
+    response = _act_as(matrix_app, role).get("/logbook")
+    assert response.status_code == 302
+    assert response.headers["Location"].split("?")[0] == target.format(**matrix_app.config["MATRIX_IDS"])
 
 
 def test_the_second_school_exists_and_its_instructor_is_not_of_the_demo_school(matrix_app: Flask) -> None:
-    from planner.db import models
-
     with matrix_app.app_context():
         other = db_session().get(models.Person, matrix_app.config["MATRIX_IDS"]["instructor_elsewhere"])
         mara = db_session().get(models.Person, matrix_app.config["MATRIX_IDS"]["pilot"])
         assert other.email == OTHER_SCHOOL["instructor"][0] and other.is_instructor
         assert other.school_id != mara.school_id
+
+
+def test_the_other_schools_instructor_sees_their_own_pilot_and_the_demo_instructor_does_not(matrix_app: Flask) -> None:
+    """The 404s above come from the school boundary, not from the instructor elsewhere lacking any access."""
+    osric = matrix_app.config["MATRIX_IDS"]["pilot_elsewhere"]
+    with matrix_app.app_context():
+        session = db_session()
+        person = session.get(models.Person, osric)
+        repository.add_entries(session, person, [Entry(id="osric-1", date=date(2026, 11, 2), landings=2, total_hours=1.1)],
+                               now=datetime(2026, 11, 2, tzinfo=UTC))
+        session.commit()
+    paths = (f"/pilots/{osric}", f"/pilots/{osric}/logbook", f"/pilots/{osric}/logbook/osric-1",
+             f"/pilots/{osric}/logbook/osric-1/edit")
+    demo_instructor = _act_as(matrix_app, "instructor")
+    assert [demo_instructor.get(p).status_code for p in paths] == [404, 404, 404, 404]
+    own_instructor = _act_as(matrix_app, "instructor_elsewhere")
+    assert [own_instructor.get(p).status_code for p in paths] == [200, 200, 200, 200]

@@ -162,11 +162,7 @@ def test_csv_cells_cannot_start_a_spreadsheet_formula(app: Flask, client: FlaskC
     assert "'=HYPERLINK" in text
 
 
-@pytest.mark.parametrize("who", ["mara", "tobias"])
-def test_pilots_do_not_see_the_overview(client: FlaskClient, who: str) -> None:
-    sign_in(client, who)
-    assert client.get("/school").status_code == 404
-    assert client.get("/school/overview.csv").status_code == 404
+# Pilots get 404 from the overview and its CSV: tests/web/test_authorization_matrix.py.
 
 
 def test_an_instructor_of_another_school_sees_only_their_own_pilots(app: Flask, client: FlaskClient) -> None:
