@@ -12,6 +12,7 @@ from collections.abc import Iterator
 from pathlib import Path
 
 import pytest
+from flask import Flask
 from werkzeug.serving import make_server
 
 from planner.config import REPO_ROOT
@@ -40,8 +41,8 @@ def demo_file(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 
 @pytest.fixture
-def live_server(demo_file: Path, tmp_path: Path) -> Iterator[str]:
-    """The app on 127.0.0.1 and a free port, on a fresh copy of the demo database; yields the base URL."""
+def served_app(demo_file: Path, tmp_path: Path) -> Iterator[tuple[str, Flask]]:
+    """The app on 127.0.0.1 and a free port, on a fresh copy of the demo database; yields (base URL, app)."""
     path = tmp_path / "e2e.sqlite3"
     shutil.copy(demo_file, path)
     app = make_app(path, tmp_path)
@@ -49,11 +50,17 @@ def live_server(demo_file: Path, tmp_path: Path) -> Iterator[str]:
     thread = threading.Thread(target=server.serve_forever, daemon=True)
     thread.start()
     try:
-        yield f"http://127.0.0.1:{server.server_port}"
+        yield f"http://127.0.0.1:{server.server_port}", app
     finally:
         server.shutdown()
         thread.join(timeout=10)
         app.extensions["planner.engine"].dispose()
+
+
+@pytest.fixture
+def live_server(served_app: tuple[str, Flask]) -> str:
+    """The base URL of the served app."""
+    return served_app[0]
 
 
 @pytest.fixture
