@@ -25,7 +25,7 @@ from planner.core import currency
 from planner.core import logbook as core_logbook
 from planner.core.logbook import CATEGORIES, Entry, Logbook
 from planner.core.rules import RuleSet
-from planner.db import lookups, models, repository
+from planner.db import models, repository
 from planner.rulesets import overrides
 from planner.db.repository import EntryConflict, EntryRejected
 
@@ -37,9 +37,7 @@ __all__ = [
     "PilotStatus",
     "SeedError",
     "SettingsRejected",
-    "airfields",
     "builtin_rule_set",
-    "currency_report",
     "export_logbook",
     "get_pilot",
     "import_logbook",
@@ -642,12 +640,13 @@ def record_sign_in_success(session: Session, email: str, address: str | None) ->
 # ---------------------------------------------------------------- credit feedback for the entry form
 
 
-@lru_cache(maxsize=64)
 def explain_entry(person: models.Person, entry: core_logbook.Entry) -> list[Any]:
     """What ``entry`` would count toward for ``person`` under their rule sets (``planner.core.credit.CreditNote`` list)."""
     from planner.core import credit
 
     return credit.explain(entry, repository.pilot_to_core(person), rule_sets_for(person))
+
+
 # ---------------------------------------------------------------- currency for the web pages
 
 PRACTICE_TARGETS = "practice-targets"
@@ -708,14 +707,6 @@ def pilot_status(
     return PilotStatus(pilot_id, sets, report, chart, moves)
 
 
-def currency_report(
-    session: Session, pilot_id: int, as_of: date, planned: Sequence[Entry] = ()
-) -> currency.CurrencyReport:
-    """The engine's report for the pilot's own rule sets as of ``as_of`` (planned entries included if given)."""
-    person = get_pilot(session, pilot_id)
-    return currency.evaluate(load_logbook(session, pilot_id), rule_sets_for(person), as_of, planned)
-
-
 @dataclass(frozen=True)
 class OverviewRow:
     """One pilot of the school overview.
@@ -742,7 +733,7 @@ def school_overview(session: Session, school_id: int, as_of: date) -> list[Overv
     Pilots with nothing ever met sort last, then by name.
     """
     rows = []
-    for person in lookups.school_pilots(session, school_id):
+    for person in repository.school_people(session, school_id, pilots_only=True):
         report = currency.evaluate(load_logbook(session, person.id), rule_sets_for(person), as_of)
         dates = [s.valid_through for s in report.requirements if not is_practice(s) and s.valid_through]
         rows.append(OverviewRow(person.id, person.name, report.requirements, min(dates) if dates else None))
@@ -760,11 +751,6 @@ class SettingsRejected(ValueError):
         super().__init__(f"{field}: {message}")
         self.field = field
         self.message = message
-
-
-def airfields(session: Session) -> list[models.Airfield]:
-    """The airfields a pilot may choose as home, by identifier."""
-    return lookups.airfields(session)
 
 
 def update_settings(
@@ -795,7 +781,7 @@ def update_settings(
         raise SettingsRejected("practice_targets", str(exc)) from None
     chosen = None
     if home_airfield:
-        chosen = next((a for a in lookups.airfields(session) if a.ident == home_airfield), None)
+        chosen = repository.find_by(session, models.Airfield, ident=home_airfield)
         if chosen is None:
             raise SettingsRejected("home_airfield", f"unknown airfield {home_airfield!r}")
     try:

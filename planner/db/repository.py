@@ -636,15 +636,14 @@ def school_devices(session: Session, school_id: int | None) -> list[models.Train
     )
 
 
-def school_people(session: Session, school_id: int | None) -> list[models.Person]:
-    """Everyone of the school, by name."""
+def school_people(session: Session, school_id: int | None, *, pilots_only: bool = False) -> list[models.Person]:
+    """Everyone of the school (with ``pilots_only``, those who keep a logbook), by name."""
     if school_id is None:
         return []
-    return list(
-        session.scalars(
-            select(models.Person).where(models.Person.school_id == school_id).order_by(models.Person.name, models.Person.id)
-        )
-    )
+    query = select(models.Person).where(models.Person.school_id == school_id)
+    if pilots_only:
+        query = query.where(models.Person.is_pilot.is_(True))
+    return list(session.scalars(query.order_by(models.Person.name, models.Person.id)))
 
 
 def all_airfields(session: Session) -> list[models.Airfield]:

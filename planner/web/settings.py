@@ -15,7 +15,7 @@ from wtforms.widgets import CheckboxInput, ListWidget
 
 from planner import rulesets, services
 from planner.core import rules as r
-from planner.db import models
+from planner.db import models, repository
 from planner.rulesets import overrides
 from planner.web import db_session
 from planner.web import status_words as words
@@ -114,7 +114,7 @@ def _edit(person: models.Person):  # type: ignore[no-untyped-def]
         SelectChoice(name, f"{services.builtin_rule_set(name).title}") for name in rulesets.builtin_names()
     ]
     form.home_airfield.choices = [SelectChoice("", "None")] + [
-        SelectChoice(a.ident, f"{a.ident} · {a.name}") for a in services.airfields(session)
+        SelectChoice(a.ident, f"{a.ident} · {a.name}") for a in repository.all_airfields(session)
     ]
     own = person.id == current_user.id
     action = url_for("settings.index") if own else url_for("settings.pilot", pilot_id=person.id)
