@@ -13,6 +13,8 @@ from flask_login import current_user
 from planner.db import models
 from planner.web import db_session
 
+MAX_ID = 2**31 - 1  # ids are 32-bit INTEGER columns: larger ones cannot exist (and overflow the drivers)
+
 
 def can_view(person: models.Person) -> bool:
     """Whether the signed-in account may read ``person``'s logbook and status."""
@@ -39,8 +41,7 @@ def can_edit(person: models.Person) -> bool:
 
 def pilot_or_404(pilot_id: int, *, edit: bool = False) -> models.Person:
     """The pilot with ``pilot_id`` if the signed-in account may see (or edit) them, else abort 404."""
-    # Ids beyond a 32-bit INTEGER column cannot exist (and overflow the drivers).
-    if not 0 < pilot_id <= 2**31 - 1:
+    if not 0 < pilot_id <= MAX_ID:
         abort(404)
     person = db_session().get(models.Person, pilot_id)
     if person is None or not person.is_pilot or not (can_edit(person) if edit else can_view(person)):

@@ -14,11 +14,9 @@ from flask_login import current_user, login_required
 
 from planner import services
 from planner.db import models, repository
-from planner.web import db_session, forms
+from planner.web import access, db_session, forms
 
 bp = Blueprint("admin", __name__)
-
-MAX_ID = 2**31 - 1
 
 
 def _require_admin() -> int:
@@ -29,7 +27,7 @@ def _require_admin() -> int:
 
 
 def _person_or_404(person_id: int, school_id: int) -> models.Person:
-    if not 0 < person_id <= MAX_ID:
+    if not 0 < person_id <= access.MAX_ID:
         abort(404)
     person = db_session().get(models.Person, person_id)
     if person is None or person.school_id != school_id:

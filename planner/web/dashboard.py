@@ -6,7 +6,7 @@ from datetime import date
 from typing import Any
 
 from dateutil.relativedelta import relativedelta
-from flask import Blueprint, redirect, render_template, request, url_for
+from flask import Blueprint, redirect, render_template, url_for
 from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
 from wtforms import (

