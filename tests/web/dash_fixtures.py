@@ -4,12 +4,15 @@ from __future__ import annotations
 
 import re
 import shutil
+from collections.abc import Callable
 from datetime import date
 from pathlib import Path
+from typing import Any
 
 import pytest
 from flask import Flask
 from flask.testing import FlaskClient
+from sqlalchemy.orm import Session
 
 from planner import services
 from planner.config import REPO_ROOT, Settings
@@ -31,17 +34,28 @@ PASSWORDS = {
 PILOTS = ("mara", "tobias", "priya", "dev", "signe", "rafael")
 
 
-def build_demo_database(base: Path) -> Path:
-    """A SQLite file with the real demo scenario (seed_demo/) loaded as of 2026-12-01."""
+def build_database(base: Path, seed: Path, *, reader: Callable[..., Any] | None = None,
+                   extra: Callable[[Session], None] | None = None) -> Path:
+    """A migrated SQLite file under ``base`` with the demo school of ``seed`` loaded as of 2026-12-01.
+
+    ``reader`` reads the seed's logbooks (the loader's default when None); ``extra`` adds rows before the commit.
+    """
     path = base / "demo.sqlite3"
     url = f"sqlite:///{path}"
     migrate.upgrade(url)
     engine = make_engine(url)
     with make_session_factory(engine)() as s:
-        services.load_demo(s, REPO_ROOT / "seed_demo", AS_OF)
+        services.load_demo(s, seed, AS_OF, **({"reader": reader} if reader else {}))
+        if extra is not None:
+            extra(s)
         s.commit()
     engine.dispose()
     return path
+
+
+def build_demo_database(base: Path) -> Path:
+    """A SQLite file with the real demo scenario (seed_demo/) loaded as of 2026-12-01."""
+    return build_database(base, REPO_ROOT / "seed_demo")
 
 
 def make_app(path: Path, tmp_path: Path, **config: object) -> Flask:

@@ -3,9 +3,7 @@
 from __future__ import annotations
 
 import re
-from collections.abc import Iterator
 from datetime import date
-from pathlib import Path
 from typing import Any
 
 import pytest
@@ -14,28 +12,17 @@ from flask.testing import FlaskClient
 from werkzeug.security import check_password_hash
 
 from planner.db import models, repository
-from tests.web.test_logbook import (  # noqa: F401  (web_database is a fixture)
+from tests.web.test_logbook import (  # noqa: F401  (app, client and web_database are fixtures)
     EMAILS,
     act_as,
+    app,
+    client,
     csrf,
     db,
     field_error,
-    make_app,
     person_id,
     web_database,
 )
-
-@pytest.fixture
-def app(web_database: Path, tmp_path: Path) -> Iterator[Flask]:  # noqa: F811
-    application = make_app(web_database, tmp_path)
-    yield application
-    application.extensions["planner.engine"].dispose()
-
-
-@pytest.fixture
-def client(app: Flask) -> FlaskClient:
-    return app.test_client()
-
 
 def person_form(**changes: Any) -> dict[str, Any]:
     data = {

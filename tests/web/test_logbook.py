@@ -22,14 +22,12 @@ from sqlalchemy import func, select
 from werkzeug.security import generate_password_hash
 
 from planner import services
-from planner.config import Settings
-from planner.db import migrate, models, repository
-from planner.db.session import make_engine, make_session_factory
+from planner.db import models, repository
 from planner.export import interchange
-from planner.web import create_app
 from tests.conftest import build_demo_seed, reader_module
+from tests.web.dash_fixtures import build_database, csrf
+from tests.web.dash_fixtures import make_app as make_dash_app
 
-TODAY = "2026-12-01"
 EMAILS = {
     "pilot": "mara.oyelaran@juniper-ridge.example",
     "other_pilot": "tobias.lindqvist@juniper-ridge.example",
@@ -72,25 +70,15 @@ def _add_second_school(session: Any) -> None:
 
 @pytest.fixture(scope="module")
 def web_database(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    """A SQLite file with the demo school and a second school, built once per module."""
+    """A SQLite file with the demo school (small test logbooks) and a second school, built once per module."""
     base = tmp_path_factory.mktemp("weblog-demo")
-    path = base / "demo.sqlite3"
-    url = f"sqlite:///{path}"
-    migrate.upgrade(url)
-    engine = make_engine(url)
-    with make_session_factory(engine)() as s:
-        services.load_demo(s, build_demo_seed(base), date(2026, 12, 1), reader=reader_module().read_json)
-        _add_second_school(s)
-        s.commit()
-    engine.dispose()
-    return path
+    return build_database(base, build_demo_seed(base), reader=reader_module().read_json, extra=_add_second_school)
 
 
 def make_app(web_database: Path, tmp_path: Path, **overrides: Any) -> Flask:
     path = tmp_path / "web.sqlite3"
     shutil.copy(web_database, path)  # each test gets its own copy
-    settings = Settings(database_url=f"sqlite:///{path}", secret_key="test-secret", instance_dir=tmp_path, seed_dir=tmp_path)
-    return create_app(settings, TESTING=True, PLANNER_TODAY=TODAY, **overrides)
+    return make_dash_app(path, tmp_path, **overrides)
 
 
 @pytest.fixture
@@ -120,14 +108,6 @@ def act_as(client: FlaskClient, app: Flask, role: str) -> None:
     with client.session_transaction() as sess:
         sess["_user_id"] = str(pid)
         sess["_fresh"] = True
-
-
-def csrf(page: str) -> str:
-    match = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page) or re.search(
-        r'type="hidden" name="csrf_token" value="([^"]+)"', page
-    ) or re.search(r'id="csrf_token" name="csrf_token" type="hidden" value="([^"]+)"', page)
-    assert match, "no CSRF token in the page"
-    return match.group(1)
 
 
 def db(app: Flask) -> Any:

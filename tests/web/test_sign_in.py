@@ -3,9 +3,8 @@
 from __future__ import annotations
 
 import html
-import re
 import shutil
-from datetime import UTC, date, datetime, timedelta
+from datetime import UTC, datetime, timedelta
 from pathlib import Path
 
 import pytest
@@ -18,6 +17,7 @@ from planner.db import migrate
 from planner.db.session import make_engine, make_session_factory
 from planner.web import create_app
 from tests.conftest import build_demo_seed, reader_module
+from tests.web.dash_fixtures import build_database, csrf, make_app
 
 MARA = ("mara.oyelaran@juniper-ridge.example", "juniper-pilot-mara")
 
@@ -26,23 +26,14 @@ MARA = ("mara.oyelaran@juniper-ridge.example", "juniper-pilot-mara")
 def demo_database(tmp_path_factory: pytest.TempPathFactory) -> Path:
     """A SQLite file with the demo loaded, built once per module (password hashing is slow on purpose)."""
     base = tmp_path_factory.mktemp("web-demo")
-    path = base / "demo.sqlite3"
-    url = f"sqlite:///{path}"
-    migrate.upgrade(url)
-    engine = make_engine(url)
-    with make_session_factory(engine)() as s:
-        services.load_demo(s, build_demo_seed(base), date(2026, 12, 1), reader=reader_module().read_json)
-        s.commit()
-    engine.dispose()
-    return path
+    return build_database(base, build_demo_seed(base), reader=reader_module().read_json)
 
 
 @pytest.fixture
 def app(demo_database: Path, tmp_path: Path):  # type: ignore[no-untyped-def]
     path = tmp_path / "web.sqlite3"
     shutil.copy(demo_database, path)  # each test gets its own copy
-    settings = Settings(database_url=f"sqlite:///{path}", secret_key="test-secret", instance_dir=tmp_path, seed_dir=tmp_path)
-    app = create_app(settings, TESTING=True)
+    app = make_app(path, tmp_path)
     yield app
     app.extensions["planner.engine"].dispose()
 
@@ -52,16 +43,8 @@ def client(app: Flask) -> FlaskClient:
     return app.test_client()
 
 
-def _csrf(page: str) -> str:
-    match = re.search(r'name="csrf_token" type="hidden" value="([^"]+)"', page) or re.search(
-        r'type="hidden" name="csrf_token" value="([^"]+)"', page
-    )
-    assert match, "no CSRF token in the page"
-    return match.group(1)
-
-
 def _sign_in(client: FlaskClient, email: str, password: str):  # type: ignore[no-untyped-def]
-    token = _csrf(client.get("/login").get_data(as_text=True))
+    token = csrf(client.get("/login").get_data(as_text=True))
     return client.post("/login", data={"email": email, "password": password, "csrf_token": token})
 
 
@@ -69,7 +52,7 @@ def test_login_page_has_a_csrf_token_and_the_caution(client: FlaskClient) -> Non
     response = client.get("/login")
     page = response.get_data(as_text=True)
     assert response.status_code == 200
-    assert len(_csrf(page)) > 20
+    assert len(csrf(page)) > 20
     footer = page.split("<footer", 1)[1]
     assert html.escape(CAUTION) in footer
 
@@ -114,13 +97,13 @@ def test_sign_out_needs_a_post_and_ends_the_session(client: FlaskClient) -> None
     _sign_in(client, *MARA)
     page = client.get("/").get_data(as_text=True)
     assert client.get("/logout").status_code == 405
-    response = client.post("/logout", data={"csrf_token": _csrf(page)})
+    response = client.post("/logout", data={"csrf_token": csrf(page)})
     assert response.status_code == 302
     assert client.get("/").status_code == 302
 
 
 def test_next_parameter_cannot_send_the_user_off_site(client: FlaskClient) -> None:
-    token = _csrf(client.get("/login").get_data(as_text=True))
+    token = csrf(client.get("/login").get_data(as_text=True))
     response = client.post(
         "/login?next=//evil.example/", data={"email": MARA[0], "password": MARA[1], "csrf_token": token}
     )
@@ -190,7 +173,7 @@ def test_a_successful_sign_in_clears_the_count(client: FlaskClient, app: Flask, 
     for _ in range(2):
         _sign_in(client, MARA[0], "wrong-password")
     assert _sign_in(client, MARA[0], MARA[1]).status_code == 302
-    client.post("/logout", data={"csrf_token": _csrf(client.get("/").get_data(as_text=True))})
+    client.post("/logout", data={"csrf_token": csrf(client.get("/").get_data(as_text=True))})
     for _ in range(2):
         assert _sign_in(client, MARA[0], "wrong-password").status_code == 401  # a fresh count of 1, 2
 
@@ -201,7 +184,7 @@ def test_the_count_is_per_email_and_address_and_kept_in_the_database(client: Fla
     assert _sign_in(client, MARA[0], MARA[1]).status_code == 429
     # Another address is not locked out; another email from the locked address neither.
     other = app.test_client()
-    token = _csrf(other.get("/login").get_data(as_text=True))
+    token = csrf(other.get("/login").get_data(as_text=True))
     response = other.post("/login", data={"email": MARA[0], "password": MARA[1], "csrf_token": token},
                           environ_base={"REMOTE_ADDR": "192.0.2.7"})
     assert response.status_code == 302
@@ -212,7 +195,7 @@ def test_the_count_is_per_email_and_address_and_kept_in_the_database(client: Fla
                         TESTING=True, PLANNER_CLOCK=clock)
     try:
         worker = second.test_client()
-        token = _csrf(worker.get("/login").get_data(as_text=True))
+        token = csrf(worker.get("/login").get_data(as_text=True))
         locked = worker.post("/login", data={"email": MARA[0], "password": MARA[1], "csrf_token": token})
         assert locked.status_code == 429
     finally:
