@@ -105,3 +105,26 @@ def test_the_dashboard_fits_a_phone_and_works_from_the_keyboard(browser, live_se
         assert page.url.endswith(f"/logbook/{ref}")
     finally:
         context.close()
+
+
+def test_the_navigation_wraps_on_a_phone_with_tap_sized_links_and_a_visible_focus(browser, live_server: str, artifacts: Path) -> None:  # type: ignore[no-untyped-def]
+    context = browser.new_context(viewport={"width": 360, "height": 740}, is_mobile=True)
+    page = context.new_page()
+    try:
+        sign_in(page, live_server, "wren")  # the admin has the most links
+        links = page.locator("nav[aria-label=Main] a")
+        assert links.all_inner_texts() == ["Dashboard", "Logbook", "School", "Settings", "People"]
+        overflow = page.evaluate("document.documentElement.scrollWidth - document.documentElement.clientWidth")
+        assert overflow <= 0, f"the page scrolls sideways by {overflow}px on a phone"
+        boxes = [links.nth(i).bounding_box() for i in range(links.count())]
+        # Every link lies inside the screen and is at least 44 px tall (common practice for touch targets).
+        assert all(b["x"] >= 0 and b["x"] + b["width"] <= 360 and b["height"] >= 44 for b in boxes), boxes
+        assert len({round(b["y"]) for b in boxes}) > 1, "the links should wrap onto more than one row"
+        page.keyboard.press("Tab")  # skip link
+        page.keyboard.press("Tab")  # first nav link
+        assert page.evaluate("document.activeElement.textContent") == "Dashboard"
+        outline = page.evaluate("getComputedStyle(document.activeElement).outlineStyle + ' ' + getComputedStyle(document.activeElement).outlineWidth")
+        assert outline.startswith("solid") and not outline.endswith(" 0px"), outline
+        page.screenshot(path=str(artifacts / "navigation-phone.png"))
+    finally:
+        context.close()
