@@ -106,7 +106,7 @@ def test_recency_from_logbook_entries():
         Entry(id="a", date=AS_OF, approaches=(_approach(), _approach(to_minimums=True)),
               instrument_actual_hours=1.2, conditions="actual"),
         Entry(id="b", date=AS_OF - timedelta(days=29), unlogged_approaches=2, instrument_simulated_hours=1.0,
-              conditions="simulated", safety_pilot="R. Okafor"),
+              conditions="simulated", safety_pilot="Test Safety Pilot"),
         Entry(id="c", date=AS_OF - timedelta(days=30), device="atd", approaches=(_approach(),),
               instrument_simulated_hours=1.5, partial_panel_approaches=1),
         Entry(id="d", date=AS_OF - timedelta(days=89), device="ftd", instrument_actual_hours=0.0,
