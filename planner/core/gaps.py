@@ -87,6 +87,12 @@ class Gap:
         return self.state != currency.CURRENT
 
 
+def _logged_by(logbook: Logbook, day: date | None) -> Logbook:
+    if day is None:
+        return logbook
+    return replace(logbook, entries=tuple(e for e in logbook.entries if e.date <= day))
+
+
 def _only(rule_set: r.RuleSet, requirement: r.Requirement) -> r.RuleSet:
     return replace(rule_set, requirements=(requirement,))
 
@@ -228,12 +234,14 @@ def find_gaps(
 ) -> tuple[Gap, ...]:
     """Every task (or check) the pilot needs from ``start`` through ``end`` (both inclusive), by due date.
 
-    ``planned`` entries (not yet flown) are counted as if logged, so
+    Logged entries dated after ``start`` are ignored (``start`` is the as-of
+    day); ``planned`` entries (not yet flown) are counted as if logged, so
     ``find_gaps(..., planned=plan)`` is empty when ``plan`` covers the range.
     Requirements of ``target_rule_sets`` are marked ``is_target``.
     """
     if end < start:
         raise ValueError(f"end ({end.isoformat()}) is before start ({start.isoformat()})")
+    logbook = _logged_by(logbook, start)
     out: list[Gap] = []
     for rs in rule_sets:
         for req in rs.requirements:
@@ -251,8 +259,10 @@ def closes(
     """Whether flying ``planned`` makes the gap's requirement current on ``gap.judged_on``.
 
     Uses ``currency.what_if`` judged as of ``gap.judged_on`` (planned entries
-    after that day do not count).
+    after that day do not count). With ``as_of`` (the day the gaps were found
+    on), logged entries after it are ignored, as ``find_gaps`` ignores them.
     """
+    logbook = _logged_by(logbook, as_of)
     judged = gap.judged_on
     usable = [p for p in planned if p.date <= judged]
     rs = next(x for x in rule_sets if x.id == gap.rule_set)

@@ -128,7 +128,7 @@ def test_end_before_start_is_refused_with_both_dates():
         gaps.find_gaps(book(), [FAA], D("2025-02-01"), D("2025-01-01"))
 
 
-@settings(max_examples=40, deadline=None)
+@settings(max_examples=80, deadline=None)
 @given(
     st.lists(
         st.tuples(st.integers(0, 330), st.integers(0, 6), st.integers(0, 1), st.booleans()), min_size=1, max_size=6
@@ -158,9 +158,16 @@ def test_first_gap_count_is_exactly_enough_and_one_less_is_not(flights, start_of
         return
     needs = {g.unit: g.count for g in first}
     enough = gaps.planned_entry("x", first_due, needs, "airplane")
-    assert all(gaps.closes(lb, [FAA], g, [enough]) for g in first)
+    assert all(gaps.closes(lb, [FAA], g, [enough], as_of=start) for g in first)
     for unit in needs:
         fewer = dict(needs)
         fewer[unit] -= 1
         short = gaps.planned_entry("y", first_due, {u: v for u, v in fewer.items() if v}, "airplane")
-        assert not gaps.closes(lb, [FAA], first[0], [short]), unit
+        assert not gaps.closes(lb, [FAA], first[0], [short], as_of=start), unit
+
+
+def test_entries_logged_after_the_start_are_not_counted():
+    # start is the as-of day (14 CFR 61.57(d) grace from 1 Apr 2025); a flight logged later must not hide the need.
+    lb = book(ifr("a", "2024-09-05"), ifr("later", "2025-04-20"))
+    found = gaps.find_gaps(lb, [INSTRUMENT], D("2025-04-10"), D("2025-05-31"))
+    assert _as_dict(found)[("2025-09-30", "approaches")] == 6
