@@ -308,6 +308,11 @@ class _Model:
                     and not _overlaps(self.base_busy.get(a.id, ()), s.start, s.end)
                 ):
                     self.aircraft_at[i].append(a.id)
+        # slots overlapping each slot in time (itself included): a session in one blocks its resources in these
+        self.conflicts: list[tuple[int, ...]] = [
+            tuple(j for j in range(n) if self.slots[j].start < si.end and si.start < self.slots[j].end)
+            for si in self.slots
+        ]
         self._sp: dict = {}
         self._pf: dict = {}
         self.value: dict[tuple[str, int], float] = {}
@@ -332,6 +337,20 @@ class _Model:
                 and (s.daylight or p.allow_night)
                 and s.minutes >= p.session_minutes
             ]
+        # static eligibility per slot: aircraft each pilot in need may fly, people eligible as safety pilot per aircraft
+        self.pf_planes: dict[tuple[str, int], list[str]] = {
+            (pid, i): [a for a in self.aircraft_at[i] if self.pf_ok(pid, a, self.slots[i].day)]
+            for pid in self.needing
+            for i in self.pf_slots[pid]
+        }
+        self.sp_at: list[dict[str, frozenset]] = [
+            {a: frozenset(q for q in self.people_at[i] if self.sp_ok(q, a, self.slots[i].day)) for a in self.aircraft_at[i]}
+            for i in range(n)
+        ]
+        self.pilots_at: list[list[str]] = [[] for _ in range(n)]  # pilots in need who could fly in slot i
+        for pid in self.needing:
+            for i in self.pf_slots[pid]:
+                self.pilots_at[i].append(pid)
         self.ub = {pid: max((self.value[(pid, i)] for i in self.pf_slots[pid]), default=0.0) + _PF_BOUND_EXTRA for pid in self.needing}
         self.net0: dict[str, int] = {}
         for (sp, pf), k in problem.balance.items():
@@ -368,87 +387,114 @@ class _State:
     def __init__(self, model: _Model):
         self.m = model
         self.sessions: list[_Session] = []
-        self.busy: dict[str, list] = {}
+        self.blocked: dict[str, dict[int, int]] = {}  # resource -> slot index -> sessions blocking it
         self.flying: dict[str, _Session] = {}
         self.net: dict[str, int] = dict(model.net0)
+        self._abs0 = sum(abs(v) for v in model.net0.values())
+        self._abs = self._abs0
+        self._base = 0.0
 
     def copy_sessions(self) -> list[_Session]:
         return list(self.sessions)
 
     def is_free(self, rid: str, slot: int) -> bool:
-        s = self.m.slots[slot]
-        return not _overlaps(self.busy.get(rid, ()), s.start, s.end)
+        b = self.blocked.get(rid)
+        return not b or not b.get(slot)
 
     def fair_delta(self, sp: str, pf: str) -> float:
         a, b = self.net.get(sp, 0), self.net.get(pf, 0)
         return W_FAIR * ((abs(a) - abs(a + 1)) + (abs(b) - abs(b - 1)))
 
     def add(self, ses: _Session) -> None:
-        s = self.m.slots[ses.slot]
         self.sessions.append(ses)
+        conflicts = self.m.conflicts[ses.slot]
         for rid in set(ses.pfs + ses.sps + (ses.aircraft,)):
-            self.busy.setdefault(rid, []).append((s.start, s.end))
+            b = self.blocked.setdefault(rid, {})
+            for j in conflicts:
+                b[j] = b.get(j, 0) + 1
         for pf in ses.pfs:
             self.flying[pf] = ses
+        self._base += ses.value
         if len(ses.pfs) == 1:
-            self.net[ses.sps[0]] = self.net.get(ses.sps[0], 0) + 1
-            self.net[ses.pfs[0]] = self.net.get(ses.pfs[0], 0) - 1
+            self._shift(ses.sps[0], 1)
+            self._shift(ses.pfs[0], -1)
+
+    def _shift(self, person: str, by: int) -> None:
+        old = self.net.get(person, 0)
+        self.net[person] = old + by
+        self._abs += abs(old + by) - abs(old)
 
     def remove(self, ses: _Session) -> None:
-        s = self.m.slots[ses.slot]
         self.sessions.remove(ses)
+        conflicts = self.m.conflicts[ses.slot]
         for rid in set(ses.pfs + ses.sps + (ses.aircraft,)):
-            self.busy[rid].remove((s.start, s.end))
+            b = self.blocked[rid]
+            for j in conflicts:
+                b[j] -= 1
         for pf in ses.pfs:
             del self.flying[pf]
+        self._base -= ses.value
         if len(ses.pfs) == 1:
-            self.net[ses.sps[0]] -= 1
-            self.net[ses.pfs[0]] += 1
+            self._shift(ses.sps[0], -1)
+            self._shift(ses.pfs[0], 1)
 
     def objective(self) -> float:
-        base = sum(x.value for x in self.sessions)
-        before = sum(abs(v) for v in self.m.net0.values())
-        after = sum(abs(v) for v in self.net.values())
-        return base + W_FAIR * (before - after)
+        return self._base + W_FAIR * (self._abs0 - self._abs)
 
     # -- options for one pilot
 
-    def options(self, pid: str, mutual_with: set | None = None):
-        """Yield (value incl. fairness delta, _Session) for every feasible way ``pid`` can fly now.
+    def options(self, pid: str, mutual_with: set | None = None, every_choice: bool = False):
+        """Yield (value incl. fairness delta, _Session) for feasible ways ``pid`` can fly now.
 
-        ``mutual_with``: if given, only these pilots are considered as mutual partners.
+        ``mutual_with``: if given, only these pilots are considered as mutual
+        partners. Without ``every_choice`` only the best safety pilot per slot
+        (one whose balance is negative, else the first eligible) and the first
+        suitable aircraft are offered; with it, every safety pilot and aircraft
+        (the exhaustive search needs them all).
         """
         m = self.m
         p = m.pilots[pid]
+        blocked = self.blocked
         for i in m.pf_slots[pid]:
-            if not self.is_free(pid, i):
+            if blocked.get(pid, {}).get(i):
                 continue
             slot = m.slots[i]
-            day = slot.day
-            planes = [a for a in m.aircraft_at[i] if self.is_free(a, i) and m.pf_ok(pid, a, day)]
+            planes = [a for a in m.pf_planes[(pid, i)] if not blocked.get(a, {}).get(i)]
             if not planes:
                 continue
+            sp_at = m.sp_at[i]
             v_p = m.value[(pid, i)]
-            for q in m.people_at[i]:
-                if q == pid or not self.is_free(q, i):
+            for q in m.pilots_at[i]:
+                if q == pid or q in self.flying or blocked.get(q, {}).get(i):
                     continue
-                if (
-                    (mutual_with is None or q in mutual_with)
-                    and q in m.pf_slots
-                    and q not in self.flying
-                    and m.value[(q, i)] > 0
-                    and (slot.daylight or m.pilots[q].allow_night)
-                    and slot.minutes >= p.session_minutes + m.pilots[q].session_minutes
-                ):
-                    for a in planes:
-                        if m.pf_ok(q, a, day) and m.sp_ok(q, a, day) and m.sp_ok(pid, a, day):
-                            val = v_p + m.value[(q, i)] + W_MUTUAL
-                            yield val, _Session(i, a, (pid, q), (q, pid), val)
-                            break
+                if mutual_with is not None and q not in mutual_with:
+                    continue
+                if slot.minutes < p.session_minutes + m.pilots[q].session_minutes:
+                    continue
+                q_planes = m.pf_planes[(q, i)]
                 for a in planes:
-                    if m.sp_ok(q, a, day):
-                        yield v_p + self.fair_delta(q, pid), _Session(i, a, (pid,), (q,), v_p)
+                    if a in q_planes and q in sp_at[a] and pid in sp_at[a]:
+                        val = v_p + m.value[(q, i)] + W_MUTUAL
+                        yield val, _Session(i, a, (pid, q), (q, pid), val)
+                        if not every_choice:
+                            break
+            chosen = None
+            for q in m.people_at[i]:
+                if q == pid or blocked.get(q, {}).get(i):
+                    continue
+                for a in planes:
+                    if q in sp_at[a]:
+                        if every_choice:
+                            yield v_p + self.fair_delta(q, pid), _Session(i, a, (pid,), (q,), v_p)
+                            continue
+                        if chosen is None or self.net.get(q, 0) < 0:
+                            chosen = (q, a)
                         break
+                if chosen is not None and not every_choice and self.net.get(chosen[0], 0) < 0:
+                    break
+            if chosen is not None:
+                q, a = chosen
+                yield v_p + self.fair_delta(q, pid), _Session(i, a, (pid,), (q,), v_p)
 
     def best_option(self, pid: str):
         best = None
@@ -505,7 +551,8 @@ def _improve(st: _State, order: Sequence[str], max_rounds: int, pair_moves: bool
                 for g in group:
                     st.remove(g)
                 freed = [pf for g in group for pf in g.pfs]
-                unscheduled = [p for p in order if p not in st.flying and p not in freed]
+                touched = {p for g in group for j in st.m.conflicts[g.slot] for p in st.m.pilots_at[j]}
+                unscheduled = [p for p in order if p in touched and p not in st.flying and p not in freed]
                 added_before = len(st.sessions)
                 for attempt in (freed + unscheduled, unscheduled + freed, list(reversed(freed)) + unscheduled):
                     _fill(st, attempt)
@@ -574,7 +621,7 @@ def exhaustive_best(problem: Problem) -> float:
             dfs(k + 1, value)
             return
         later = {q for q in order[k + 1 :] if q not in st.flying}
-        for val, ses in list(st.options(pid, mutual_with=later)):
+        for val, ses in list(st.options(pid, mutual_with=later, every_choice=True)):
             st.add(ses)
             dfs(k + 1, value + val)
             st.remove(ses)
