@@ -535,7 +535,14 @@ def _fill(st: _State, pids: Sequence[str]) -> None:
 
 
 def _improve(st: _State, order: Sequence[str], max_rounds: int, pair_moves: bool) -> None:
-    """Remove one (or two) sessions, re-insert their and the unscheduled pilots greedily; keep if better."""
+    """Local improvement; every move is kept only when the objective rises.
+
+    * remove one session (with ``pair_moves`` also two), re-insert the freed
+      and the affected unscheduled pilots greedily in a few orders;
+    * with ``pair_moves`` (small instances) also a one-step look-ahead: remove a
+      session and force each alternative option of its first pilot, then fill
+      greedily.
+    """
     for _ in range(max_rounds):
         improved = False
         current = st.objective()
@@ -548,26 +555,55 @@ def _improve(st: _State, order: Sequence[str], max_rounds: int, pair_moves: bool
             for group in groups:
                 if any(g not in st.sessions for g in group):
                     continue
-                for g in group:
-                    st.remove(g)
-                freed = [pf for g in group for pf in g.pfs]
-                touched = {p for g in group for j in st.m.conflicts[g.slot] for p in st.m.pilots_at[j]}
-                unscheduled = [p for p in order if p in touched and p not in st.flying and p not in freed]
-                added_before = len(st.sessions)
-                for attempt in (freed + unscheduled, unscheduled + freed, list(reversed(freed)) + unscheduled):
-                    _fill(st, attempt)
-                    if st.objective() > current + 1e-9:
-                        break
-                    for extra in st.sessions[added_before:]:
-                        st.remove(extra)
-                if st.objective() > current + 1e-9:
+                if _try_refill(st, group, order, current):
                     current = st.objective()
                     improved = True
                     break
-                for g in group:
-                    st.add(g)
+            if pair_moves and ses in st.sessions and _try_lookahead(st, ses, order, current):
+                current = st.objective()
+                improved = True
         if not improved:
             break
+
+
+def _touched(st: _State, group: Sequence[_Session], order: Sequence[str], freed: Sequence[str]) -> list[str]:
+    touched = {p for g in group for j in st.m.conflicts[g.slot] for p in st.m.pilots_at[j]}
+    return [p for p in order if p in touched and p not in st.flying and p not in freed]
+
+
+def _try_refill(st: _State, group: list[_Session], order: Sequence[str], current: float) -> bool:
+    for g in group:
+        st.remove(g)
+    freed = [pf for g in group for pf in g.pfs]
+    unscheduled = _touched(st, group, order, freed)
+    mark = len(st.sessions)
+    for attempt in (freed + unscheduled, unscheduled + freed, list(reversed(freed)) + unscheduled):
+        _fill(st, attempt)
+        if st.objective() > current + 1e-9:
+            return True
+        for extra in st.sessions[mark:]:
+            st.remove(extra)
+    for g in group:
+        st.add(g)
+    return False
+
+
+def _try_lookahead(st: _State, ses: _Session, order: Sequence[str], current: float) -> bool:
+    st.remove(ses)
+    freed = list(ses.pfs)
+    unscheduled = _touched(st, [ses], order, freed)
+    mark = len(st.sessions)
+    for _val, forced in list(st.options(freed[0])):
+        if forced.slot == ses.slot and forced.pfs == ses.pfs and forced.sps == ses.sps:
+            continue
+        st.add(forced)
+        _fill(st, freed + unscheduled)
+        if st.objective() > current + 1e-9:
+            return True
+        for extra in st.sessions[mark:]:
+            st.remove(extra)
+    st.add(ses)
+    return False
 
 
 def _orders(model: _Model) -> list[list[str]]:
