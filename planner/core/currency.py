@@ -400,11 +400,13 @@ class _Index:
     def __init__(self, entries: Iterable[Entry], until: date | None = None):
         """``entries`` dated on or before ``until`` (all if None), sorted by date and id."""
         entries = list(entries)
-        dates = list(map(_DATE, entries))
+        dates, ids, checks = _fields(entries, _HEAD)
         if until is not None and dates and max(dates) > until:
-            entries = list(compress(entries, map(ge, repeat(until), dates)))
-            dates = list(map(_DATE, entries))
-        ids = list(map(_ID, entries))
+            kept = list(compress(range(len(entries)), map(ge, repeat(until), dates)))
+            entries = [entries[i] for i in kept]
+            dates = [dates[i] for i in kept]
+            ids = [ids[i] for i in kept]
+            checks = [checks[i] for i in kept]
         in_order = all(map(le, dates, islice(dates, 1, None))) and not any(
             map(and_, map(eq, dates, islice(dates, 1, None)), map(gt, ids, islice(ids, 1, None)))
         )
@@ -412,10 +414,11 @@ class _Index:
             order = sorted(range(len(entries)), key=lambda i: (dates[i], ids[i]))  # stable, as sorting by (date, id)
             entries = [entries[i] for i in order]
             dates = [dates[i] for i in order]
+            checks = [checks[i] for i in order]
         self.entries: list[Entry] = entries
         self.ords: list[int] = list(map(date.toordinal, dates))
         ords = self.ords
-        self._checks: list[tuple[int, int]] = [(i, ords[i]) for i in compress(range(len(entries)), map(_CHECKS, entries))]
+        self._checks: list[tuple[int, int]] = [(i, ords[i]) for i in compress(range(len(entries)), checks)]
         self._rows: dict[tuple, tuple] = {}
         self.series_cache: dict[tuple, _TaskSeries] = {}
         n = len(self.entries)
@@ -439,10 +442,14 @@ class _Index:
         if cached is None or first < cached[0]:
             done = len(self.entries) if cached is None else cached[0]
             idxs, amounts = self._units_range(unit, conditions, hand, first, done)
+            covered = bisect_left(idxs, self._cols_from)  # rows before this one are not in the columns
+            shared = self._bucket_keys
+            buckets = [shared.setdefault(k, k) for k in map(_BUCKET, map(self.entries.__getitem__, idxs[:covered]))]
+            buckets.extend(map(self._cols["bucket"].__getitem__, idxs[covered:]))
             if cached is not None:
                 idxs.extend(cached[1])
                 amounts.extend(cached[2])
-            buckets = list(map(self._cols["bucket"].__getitem__, idxs))
+                buckets.extend(cached[3])
             cached = self._rows[key] = (first, idxs, amounts, buckets, tuple(dict.fromkeys(buckets)))
         return cached[1:]
 
@@ -484,9 +491,15 @@ class _Index:
     def _units_range(self, unit: str, conditions: str, hand: bool, lo: int, hi: int) -> tuple[list, list]:
         """(entry indexes, amounts) of the entries lo..hi-1 with creditable work of one kind
         (as ``units_on``; hours in hundredths)."""
-        cols = self._columns(lo)
         span = range(lo, hi)
         attr = _SIMPLE_UNITS.get(unit)
+        if attr is not None and conditions == r.CONDITIONS_ANY and lo < self._cols_from:
+            # one field: read it directly rather than fill in every column (evaluate's long look-backs)
+            values = list(map(attrgetter(attr), self.entries[lo:hi]))
+            keep = list(compress(span, values))
+            amounts = [1] * len(keep) if attr == "course_tracking" else [values[i - lo] for i in keep]
+            return keep, amounts
+        cols = self._columns(lo)
         if attr is not None:
             values = cols[attr]
             keep = compress(span, values[lo:hi])
@@ -559,9 +572,18 @@ _ROW_FIELDS = (
 )
 _ROW = attrgetter(*_ROW_FIELDS)
 _CHUNK = 512
-_DATE = attrgetter("date")
-_ID = attrgetter("id")
-_CHECKS = attrgetter("checks")
+_HEAD = ("date", "id", "checks")
+_BUCKET = attrgetter("device", "category", "aircraft_class")
+
+
+def _fields(entries: list[Entry], names: tuple[str, ...]) -> list[list]:
+    """One list per field in ``names``, reading each entry once."""
+    getter = attrgetter(*names)
+    out: list[list] = [[] for _ in names]
+    for start in range(0, len(entries), _CHUNK):  # in chunks: few objects alive at once
+        for column, values in zip(out, zip(*map(getter, entries[start:start + _CHUNK]))):
+            column.extend(values)
+    return out
 # Worked out from the fields: a safety pilot or instructor is named; _instrument_condition;
 # (device, category, class); instrument hours in hundredths (as _hundredths).
 _DERIVED_FIELDS = ("named", "condition", "bucket", "actual_units", "simulated_units")
