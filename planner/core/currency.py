@@ -34,8 +34,8 @@ from __future__ import annotations
 
 from bisect import bisect_left, bisect_right
 from functools import partial
-from itertools import accumulate, compress, islice, repeat
-from operator import add, and_, attrgetter, eq, ge, gt, le, mul, ne
+from itertools import accumulate, chain, compress, islice, repeat
+from operator import add, and_, attrgetter, eq, ge, gt, le, mul, ne, sub
 from dataclasses import dataclass, field
 from datetime import date
 from typing import Iterable, Sequence
@@ -652,45 +652,52 @@ def _start(window: Window, o: int) -> int:
     return v
 
 
+def _month_start(index: int) -> int:
+    """Ordinal of the first day of the month with this ``month_index``."""
+    v = _MONTH_START.get(index)
+    if v is None:
+        v = _MONTH_START[index] = first_of_month_index(index).toordinal()
+    return v
+
+
+_MONTH_START: dict[int, int] = {}
+
+
 def _ends(window: Window, days: list[int]) -> list[int]:
     """``_end(window, d)`` for each ordinal of the ascending list ``days``.
 
-    Days windows are plain arithmetic; calendar-month windows change value only
-    once per month, so the month's end is worked out once per month seen.
+    Days windows are plain arithmetic. The other windows are worked out a
+    month of ``days`` at a time: calendar months end on the same day for the
+    whole month; to the day, the day of the month is kept (clamped to the
+    target month's last day).
     """
     if window.unit == DAYS:
-        add = window.length if window.inclusive else window.length - 1
-        return [d + add for d in days]
+        add_days = window.length if window.inclusive else window.length - 1
+        return [d + add_days for d in days]
+    out: list[int] = []
+    n = len(days)
+    i = 0
     if window.unit == CALENDAR_MONTHS:
-        out = []
-        append = out.append
-        next_month = -_INF  # first ordinal of the month after the current one
-        value = 0
-        for d in days:
-            if d >= next_month:
-                month = month_index(date.fromordinal(d))
-                value = end_of_month_index(month + window.length).toordinal()
-                next_month = first_of_month_index(month + 1).toordinal()
-            append(value)
+        while i < n:
+            month = month_index(date.fromordinal(days[i]))
+            j = bisect_left(days, _month_start(month + 1), i)
+            out.extend(repeat(_month_start(month + window.length + 1) - 1, j - i))
+            i = j
         return out
-    # months or years to the day: the same day of the month N months later, clamped to
-    # that month's last day, worked out from each month's first day and length
     months = window.length if window.unit == MONTHS_TO_THE_DAY else 12 * window.length
-    last_offset = 0 if window.inclusive else 1
-    out = []
-    append = out.append
-    next_month = -_INF
-    month_start = target_start = target_last = 0
-    for d in days:
-        if d >= next_month:
-            month = month_index(date.fromordinal(d))
-            month_start = first_of_month_index(month).toordinal()
-            next_month = first_of_month_index(month + 1).toordinal()
-            target_start = first_of_month_index(month + months).toordinal()
-            target_last = first_of_month_index(month + months + 1).toordinal() - target_start - 1
-            # day of month - 1 of d is d - month_start; the target keeps it unless the month is shorter
-        offset = d - month_start
-        append(target_start + (offset if offset < target_last else target_last) - last_offset)
+    early = 0 if window.inclusive else 1
+    while i < n:
+        month = month_index(date.fromordinal(days[i]))
+        start = _month_start(month)
+        following = _month_start(month + 1)
+        j = bisect_left(days, following, i)
+        target = _month_start(month + months)
+        target_last = _month_start(month + months + 1) - target - 1  # last day of the target month, from 0
+        if following - start - 1 <= target_last:  # every day of this month exists in the target month
+            out.extend(map(add, days[i:j], repeat(target - start - early, j - i)))
+        else:
+            out.extend([target + (d - start if d - start < target_last else target_last) - early for d in days[i:j]])
+        i = j
     return out
 
 
@@ -698,6 +705,7 @@ def clear_caches() -> None:
     """Forget memoised window arithmetic (for benchmarks)."""
     _END_CACHE.clear()
     _START_CACHE.clear()
+    _MONTH_START.clear()
 
 
 def _intersect(a: list[tuple[int, int]], b: list[tuple[int, int]]) -> list[tuple[int, int]]:
@@ -750,6 +758,7 @@ class _TaskSeries:
         self.starts = days if self.simple else [_start(window, d) for d in days]
         self.ends = ends = _ends(window, days)
         self._endl_ext: list[int] | None = None
+        self._day_ends: tuple[list[int], list[int]] | None = None
         self.prefix = prefix = [0]
         prefix.extend(accumulate(amounts))
         # endl[j]: last day the task is met using units up to group j
@@ -776,8 +785,31 @@ class _TaskSeries:
         last = bisect_right(self.days, day) - 1
         return self.endl[last] if last >= 0 else -1
 
-    def tail_ends(self, days: list[int]) -> list[int]:
-        """``tail_end`` of each of the ascending ``days``."""
+    def tail_ends(self, days: list[int], position: dict[int, int] | None = None) -> list[int]:
+        """``tail_end`` of each of the ascending ``days``.
+
+        ``position`` (day -> index in ``days``) allows a quicker path when
+        ``days`` includes every day with work between its first and last day:
+        the value then changes only on those days and is repeated in between.
+        """
+        if position is not None and days:
+            if self._day_ends is None:
+                d = self.days
+                last = list(compress(range(len(d)), map(ne, d, chain(islice(d, 1, None), (_INF,)))))
+                self._day_ends = (list(map(d.__getitem__, last)), list(map(self.endl.__getitem__, last)))
+            unique, values = self._day_ends  # each day with work, and the tail end from it
+            a = bisect_left(unique, days[0])
+            b = bisect_right(unique, days[-1])
+            before = values[a - 1] if a else -1
+            at = list(map(position.get, unique[a:b]))
+            if None not in at:
+                if not at:
+                    return [before] * len(days)
+                out = [before] * at[0]
+                following = at[1:]
+                following.append(len(days))
+                out.extend(chain.from_iterable(map(repeat, values[a:b], map(sub, following, at))))
+                return out
         ext = self._endl_ext
         if ext is None:
             ext = self._endl_ext = [-1]
@@ -1135,13 +1167,15 @@ class _Judged:
         n = len(days)
         columns = [days]
         later: list[tuple[int, int, list[int]]] = []  # (first day in force, split, ends) of paths not yet in force
+        position = dict(zip(days, range(n)))
         for (_path, series), (lo, hi, _simple) in zip(self.paths, self._path_bounds):
-            if len(series) == 1:
-                ends = series[0].tail_ends(days)
-            else:
-                ends = list(map(min, *(s.tail_ends(days) for s in series)))
+            if hi < days[0]:
+                continue  # no longer in force: its spans end before they start
+            ends = series[0].tail_ends(days, position)
+            for s in series[1:]:
+                ends = [x if x < y else y for x, y in zip(ends, s.tail_ends(days, position))]
             if hi < _INF:
-                ends = list(map(min, ends, repeat(hi, n)))
+                ends = [x if x < hi else hi for x in ends]
             split = bisect_left(days, lo) if lo > -_INF else 0  # days[:split] are before the path is in force
             if split:
                 later.append((lo, split, ends[:split]))
@@ -1151,7 +1185,11 @@ class _Judged:
             reach = [-_INF]
             reach.extend(self._check_reach)
             columns.append(list(map(reach.__getitem__, map(partial(bisect_right, self._check_days), days))))
-        merged = list(map(max, *columns)) if len(columns) > 1 else list(days)
+        merged = columns[0]
+        for column in columns[1:]:
+            merged = [x if x > y else y for x, y in zip(merged, column)]
+        if merged is days:
+            merged = list(days)
         for lo, split, ends in sorted(later, key=lambda t: t[0]):
             merged[:split] = [e if lo <= m + 1 and e > m else m for m, e in zip(merged[:split], ends)]
         return merged
