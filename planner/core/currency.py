@@ -424,7 +424,15 @@ class _Index:
         n = len(self.entries)
         self._cols: dict[str, list] = {name: [None] * n for name in _ROW_FIELDS + _DERIVED_FIELDS}
         self._cols_from = n  # columns are filled in for entries from this index on
-        self._bucket_keys: dict[tuple, tuple] = {}  # one tuple per bucket, shared by its entries
+        self._bucket_ids: dict[tuple, int] = {}  # (device, category, class) -> a small number
+        self._buckets: list[tuple] = []
+        self._approaches: dict[tuple[int, int], tuple] = {}
+
+    def bucket(self, number: int) -> tuple:
+        """The (device, category, class) with this number."""
+        if len(self._buckets) != len(self._bucket_ids):
+            self._buckets = list(self._bucket_ids)  # numbered in order of first sight
+        return self._buckets[number]
 
     def upto(self, day_ord: int) -> int:
         """Number of entries dated on or before the ordinal ``day_ord``."""
@@ -432,7 +440,8 @@ class _Index:
 
     def rows(self, unit: str, conditions: str, hand: bool, first: int = 0) -> tuple[list, list, list, tuple]:
         """Creditable work of one kind, by date: (entry indexes, amounts, bucket of each row,
-        the buckets seen), where a bucket is (device, category, class).
+        the buckets seen), where a bucket is the number of a (device, category, class),
+        see ``bucket``.
 
         Covers at least the entries from index ``first`` on; older entries are
         read only when a caller asks for them.
@@ -443,8 +452,8 @@ class _Index:
             done = len(self.entries) if cached is None else cached[0]
             idxs, amounts = self._units_range(unit, conditions, hand, first, done)
             covered = bisect_left(idxs, self._cols_from)  # rows before this one are not in the columns
-            shared = self._bucket_keys
-            buckets = [shared.setdefault(k, k) for k in map(_BUCKET, map(self.entries.__getitem__, idxs[:covered]))]
+            ids = self._bucket_ids
+            buckets = [ids.setdefault(k, len(ids)) for k in map(_BUCKET, map(self.entries.__getitem__, idxs[:covered]))]
             buckets.extend(map(self._cols["bucket"].__getitem__, idxs[covered:]))
             if cached is not None:
                 idxs.extend(cached[1])
@@ -478,15 +487,30 @@ class _Index:
                 cols["instrument_simulated_hours"][lo:done],
                 named,
             )
-            shared = self._bucket_keys
+            ids = self._bucket_ids
             cols["bucket"][lo:done] = [
-                shared.setdefault(k, k)
+                ids.setdefault(k, len(ids))
                 for k in zip(cols["device"][lo:done], cols["category"][lo:done], cols["aircraft_class"][lo:done])
             ]
             cols["actual_units"][lo:done] = map(round, map(mul, cols["instrument_actual_hours"][lo:done], repeat(100)))
             cols["simulated_units"][lo:done] = map(round, map(mul, cols["instrument_simulated_hours"][lo:done], repeat(100)))
             self._cols_from = lo
         return cols
+
+    def _flat_approaches(self, lo: int, hi: int) -> tuple[list, ...]:
+        """The approaches of entries lo..hi-1: (entries with approaches, offset of each entry's first
+        approach (and one past the last), then per approach: its entry, type and airfield logged,
+        coupled, conditions)."""
+        approaches = self._cols["approaches"]
+        holders = list(compress(range(lo, hi), approaches[lo:hi]))
+        tuples = list(map(approaches.__getitem__, holders))
+        offsets = [0]
+        offsets.extend(accumulate(map(len, tuples)))
+        owner = list(chain.from_iterable(map(repeat, holders, map(len, tuples))))
+        flat = list(chain.from_iterable(tuples))
+        types, fields, coupled, conditions = _fields(flat, ("type", "airfield", "coupled", "conditions"))
+        logged = [bool(t and f) for t, f in zip(types, fields)]
+        return holders, offsets, owner, logged, coupled, conditions
 
     def _units_range(self, unit: str, conditions: str, hand: bool, lo: int, hi: int) -> tuple[list, list]:
         """(entry indexes, amounts) of the entries lo..hi-1 with creditable work of one kind
@@ -533,18 +557,33 @@ class _Index:
                 keep = [i for i in compress(span, units) if logged_actual[i] > 0 or logged_sim[i] > 0]
             return keep, [units[i - lo] for i in keep]
         if unit == r.APPROACHES:
-            keep = []
-            amounts = []
-            approaches = cols["approaches"]
-            device = cols["device"]
-            named = cols["named"]
-            condition = cols["condition"]
-            for i in compress(span, approaches[lo:hi]):
-                amount = _count_approaches(approaches[i], device[i], named[i], conditions, hand, condition[i], None)
-                if amount:
-                    keep.append(i)
-                    amounts.append(amount)
-            return keep, amounts
+            # Every approach of the entries lo..hi-1 in one flat list (as _count_approaches judges them).
+            flat = self._approaches.get((lo, hi))
+            if flat is None:
+                flat = self._approaches[(lo, hi)] = self._flat_approaches(lo, hi)
+            holders, offsets, owner, logged, coupled, ap_conditions = flat
+            credited = logged
+            if hand:
+                credited = [a and not c for a, c in zip(credited, coupled)]
+            if conditions != r.CONDITIONS_ANY:
+                device = cols["device"]
+                named = cols["named"]
+                condition = cols["condition"]
+                how = [
+                    condition[i][0] if device[i] != "aircraft" or c is None
+                    else None if c == "simulated" and not named[i]
+                    else c
+                    for i, c in zip(owner, ap_conditions)
+                ]
+                if conditions == r.CONDITIONS_ACTUAL:
+                    credited = [a and h == "actual" for a, h in zip(credited, how)]
+                else:
+                    credited = [a and h is not None for a, h in zip(credited, how)]
+            running = [0]
+            running.extend(accumulate(credited))
+            at = list(map(running.__getitem__, offsets))
+            counts = list(map(sub, islice(at, 1, None), at))  # credited approaches of each holder
+            return list(compress(holders, counts)), list(compress(counts, counts))
         raise ValueError(f"unknown task unit {unit!r}")  # pragma: no cover - the loader refuses unknown units
 
     def checks(self) -> list[tuple[int, int]]:
@@ -672,8 +711,7 @@ def _ends(window: Window, days: list[int]) -> list[int]:
     target month's last day).
     """
     if window.unit == DAYS:
-        add_days = window.length if window.inclusive else window.length - 1
-        return [d + add_days for d in days]
+        return list(map(add, days, repeat(window.length if window.inclusive else window.length - 1, len(days))))
     out: list[int] = []
     n = len(days)
     i = 0
@@ -767,6 +805,17 @@ class _TaskSeries:
             # Every row alone holds enough units: the n-th most recent unit is in the row itself.
             self.endl = ends
             return
+        if need >= 1 and amounts and min(amounts) > 0:
+            # Prefix sums rise strictly: the row holding the n-th most recent unit is found by
+            # binary search (the row j with prefix[j] <= target < prefix[j + 1]).
+            targets = list(map(sub, islice(prefix, 1, None), repeat(need)))
+            too_few = bisect_left(targets, 0)
+            ends_after = [-1]
+            ends_after.extend(ends)  # ends_after[j + 1] == ends[j]
+            endl = [-1] * too_few
+            endl.extend(map(ends_after.__getitem__, map(partial(bisect_right, prefix), islice(targets, too_few, None))))
+            self.endl = endl
+            return
         endl = []
         append = endl.append
         limit = 0  # the n-th most recent row moves forward only: two pointers, no search
@@ -785,6 +834,14 @@ class _TaskSeries:
         last = bisect_right(self.days, day) - 1
         return self.endl[last] if last >= 0 else -1
 
+    def _unique_day_ends(self) -> tuple[list[int], list[int]]:
+        """Each day with work, and the tail end from that day (from the day's last row)."""
+        if self._day_ends is None:
+            d = self.days
+            last = list(compress(range(len(d)), map(ne, d, chain(islice(d, 1, None), (_INF,)))))
+            self._day_ends = (list(map(d.__getitem__, last)), list(map(self.endl.__getitem__, last)))
+        return self._day_ends
+
     def tail_ends(self, days: list[int], position: dict[int, int] | None = None) -> list[int]:
         """``tail_end`` of each of the ascending ``days``.
 
@@ -793,11 +850,7 @@ class _TaskSeries:
         the value then changes only on those days and is repeated in between.
         """
         if position is not None and days:
-            if self._day_ends is None:
-                d = self.days
-                last = list(compress(range(len(d)), map(ne, d, chain(islice(d, 1, None), (_INF,)))))
-                self._day_ends = (list(map(d.__getitem__, last)), list(map(self.endl.__getitem__, last)))
-            unique, values = self._day_ends  # each day with work, and the tail end from it
+            unique, values = self._unique_day_ends()
             a = bisect_left(unique, days[0])
             b = bisect_right(unique, days[-1])
             before = values[a - 1] if a else -1
@@ -818,6 +871,19 @@ class _TaskSeries:
 
     def intervals(self) -> list[tuple[int, int]]:
         """Days on which the task is met (sorted, disjoint, inclusive ordinals)."""
+        if self.simple:
+            # From each day with work the task is met through its tail end, but no further
+            # than the next such day (which takes over); touching pieces join.
+            unique, values = self._unique_day_ends()
+            following = unique[1:]
+            following.append(_INF)
+            ends = [v if v < f else f - 1 for v, f in zip(values, following)]
+            met = list(map(ge, ends, unique))
+            joins = [a and b and e == f - 1 for a, b, e, f in zip(met, islice(met, 1, None), ends, following)]
+            joins.append(False)  # joins[k]: piece k runs on into piece k + 1
+            firsts = [m and not j for m, j in zip(met, chain((False,), joins))]
+            lasts = [m and not j for m, j in zip(met, joins)]
+            return list(zip(compress(unique, firsts), compress(ends, lasts)))
         out: list[tuple[int, int]] = []
         starts = self.starts
         nexts = starts[1:]
@@ -996,8 +1062,9 @@ class _Judged:
         hi = min(self.limit_ord, task.entries_until.toordinal() if task.entries_until else _INF)
         first = bisect_left(self.index.ords, lo) if lo > -_INF else 0
         rows = self.index.rows(task.unit, task.conditions, task.hand_flown_only, first)
+        bucket = self.index.bucket
         chosen = tuple(
-            k for k in rows[3]
+            n for n, k in zip(rows[3], map(bucket, rows[3]))
             if k[0] in task.devices and (self.cat is None or k[1] == self.cat) and (self.cls is None or k[2] == self.cls)
         )
         cache_key = (task.unit, task.conditions, task.hand_flown_only, chosen, lo, hi, window, task.minimum_units)
@@ -1056,7 +1123,8 @@ class _Judged:
         for _path, series in self.paths:
             for s in series:
                 days.update(s.days)
-                days.update(s.starts)
+                if s.starts is not s.days:
+                    days.update(s.starts)
         return days
 
     def _checks(self) -> list[_Check]:
@@ -1211,7 +1279,8 @@ class _Judged:
             g = self._grace_end(e)
             if g is not None:
                 candidates.add(g + 1)
-        days = sorted(c for c in candidates if lo <= c <= hi)
+        days = sorted(candidates)
+        days = days[bisect_left(days, lo):bisect_right(days, hi)]
         out: list[StateChange] = []
         previous = None
         fromordinal = date.fromordinal
