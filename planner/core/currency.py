@@ -1305,7 +1305,15 @@ class _Judged:
             ends = self._projected_ends(inside)
             steps = [] if previous == (CURRENT, ends[0], None, None) else [0]
             steps.extend(compress(range(1, len(ends)), map(ne, ends[1:], ends)))
-            out.extend(StateChange(fromordinal(inside[j]), CURRENT, fromordinal(ends[j]), None, None) for j in steps)
+            n = len(steps)
+            out.extend(map(
+                StateChange,
+                map(fromordinal, map(inside.__getitem__, steps)),
+                repeat(CURRENT, n),
+                map(fromordinal, map(ends.__getitem__, steps)),
+                repeat(None, n),
+                repeat(None, n),
+            ))
             previous = (CURRENT, ends[-1], None, None)
             done = last
         outside(days[done:])
