@@ -24,10 +24,16 @@ How a requirement is judged (for one scope, e.g. the airplane category):
 it are ignored. State ``current`` means the privilege may be used on ``as_of``.
 Windows include both edge days unless the rule says otherwise.
 
-Algorithm: units are grouped per day and sorted once; for every day with units
-the n-th most recent unit is found by binary search over prefix sums, which
-gives the task's met intervals directly (no day-by-day loop). Work is
-O(U log U) for U unit-days.
+Algorithm: each entry is read once into flat per-field lists (``_Index``), and
+the creditable amounts of each kind of work are worked out over those lists.
+For every row of work the n-th most recent unit is found by binary search over
+prefix sums, which gives the task's met intervals directly (no day-by-day
+loop). Work is O(U log U) for U unit rows. The timeline looks only at days
+where something can change: outside periods of currency the edges of periods
+and grace stages; inside a period the days with work or a check, whose
+projected ends are worked out together (``_Judged.changes``). The lists are
+processed whole (map, compress, comprehensions) rather than element by element
+in Python, and few objects are kept alive, which keeps garbage collection short.
 """
 
 from __future__ import annotations
