@@ -433,6 +433,7 @@ class _Index:
         self._bucket_ids: dict[tuple, int] = {}  # (device, category, class) -> a small number
         self._buckets: list[tuple] = []
         self._approaches: dict[tuple[int, int], tuple] = {}
+        self.units_memo: dict[tuple, dict[int, tuple]] = {}  # (unit, conditions, hand) -> entry index -> units_on
 
     def bucket(self, number: int) -> tuple:
         """The (device, category, class) with this number."""
@@ -617,6 +618,7 @@ _ROW_FIELDS = (
 )
 _ROW = attrgetter(*_ROW_FIELDS)
 _CHUNK = 512
+_NOTHING = (0, ())  # units_on of an entry without any work of the unit
 _HEAD = ("date", "id", "checks")
 _BUCKET = attrgetter("device", "category", "aircraft_class")
 
@@ -1104,12 +1106,17 @@ class _Judged:
                 tasks.setdefault((task.unit, task.conditions, task.hand_flown_only), set()).update(task.devices)
         others = {s.split("/", 1)[0] for s in self.covered_scopes}
         entries = self.index.entries
+        # units_on of an entry is the same for every requirement and scope: worked out once per index
+        judged = [(key, devices, self.index.units_memo.setdefault(key, {})) for key, devices in tasks.items()]
         for i in range(first, self.limit):
             e = entries[i]
-            for (unit, conditions, hand), devices in tasks.items():
-                if e.device not in devices or not _may_have(e, unit):
+            for (unit, conditions, hand), devices, memo in judged:
+                if e.device not in devices:
                     continue
-                amount, problems = units_on(e, unit, conditions, hand)
+                found = memo.get(i)
+                if found is None:
+                    found = memo[i] = units_on(e, unit, conditions, hand) if _may_have(e, unit) else _NOTHING
+                amount, problems = found
                 if not (amount or problems):
                     continue
                 if self._in_scope(e):
