@@ -24,23 +24,43 @@ How a requirement is judged (for one scope, e.g. the airplane category):
 it are ignored. State ``current`` means the privilege may be used on ``as_of``.
 Windows include both edge days unless the rule says otherwise.
 
-Algorithm: units are grouped per day and sorted once; for every day with units
-the n-th most recent unit is found by binary search over prefix sums, which
-gives the task's met intervals directly (no day-by-day loop). Work is
-O(U log U) for U unit-days.
+Algorithm: each entry is read once into flat per-field lists (``_Index``), and
+the creditable amounts of each kind of work are worked out over those lists.
+For every row of work the n-th most recent unit is found by binary search over
+prefix sums, which gives the task's met intervals directly (no day-by-day
+loop). Work is O(U log U) for U unit rows. The timeline looks only at days
+where something can change: outside periods of currency the edges of periods
+and grace stages; inside a period the days with work or a check, whose
+projected ends are worked out together (``_Judged.changes``). The lists are
+processed whole (map, compress, comprehensions) rather than element by element
+in Python, and few objects are kept alive, which keeps garbage collection short.
 """
 
 from __future__ import annotations
 
 from bisect import bisect_left, bisect_right
+from functools import partial
+from itertools import accumulate, chain, compress, islice, repeat
+from operator import add, and_, attrgetter, eq, ge, gt, le, mul, ne, sub
 from dataclasses import dataclass, field
 from datetime import date
-from operator import attrgetter
 from typing import Iterable, Sequence
 
 from planner.core import rules as r
 from planner.core.logbook import Entry, Logbook
-from planner.core.windows import Window, credit_end, credit_start, early_window_start, earliest_counting
+from planner.core.windows import (
+    CALENDAR_MONTHS,
+    DAYS,
+    MONTHS_TO_THE_DAY,
+    Window,
+    credit_end,
+    credit_start,
+    early_window_start,
+    earliest_counting,
+    end_of_month_index,
+    first_of_month_index,
+    month_index,
+)
 
 CURRENT = "current"
 GRACE = "grace"
@@ -179,13 +199,22 @@ def _instrument_condition(entry: Entry) -> tuple[str | None, str | None]:
     conditions are inferred from the instrument hours when only one kind is
     logged (or taken as simulated when a safety pilot/instructor is named).
     """
-    if entry.device != "aircraft":
+    return _condition_of(
+        entry.device,
+        entry.conditions,
+        entry.instrument_actual_hours,
+        entry.instrument_simulated_hours,
+        bool(entry.safety_pilot or entry.instructor),
+    )
+
+
+def _condition_of(device: str, cond: str | None, actual: float, simulated: float, named: bool) -> tuple:
+    """``_instrument_condition`` from the entry's fields (``named``: a safety pilot or instructor is named)."""
+    if device != "aircraft":
         return "device", None
-    named = bool(entry.safety_pilot or entry.instructor)
-    cond = entry.conditions
     if cond is None:
-        has_actual = entry.instrument_actual_hours > 0
-        has_sim = entry.instrument_simulated_hours > 0
+        has_actual = actual > 0
+        has_sim = simulated > 0
         if has_actual and not has_sim:
             cond = "actual"
         elif has_sim and not has_actual:
@@ -196,7 +225,10 @@ def _instrument_condition(entry: Entry) -> tuple[str | None, str | None]:
             return None, "conditions (actual or simulated) not logged and not evident from the instrument time"
     if cond == "simulated" and not named:
         return None, "simulated instrument work in an aircraft with neither safety pilot nor instructor named (14 CFR 91.109(c), 61.51(g))"
-    return cond, None
+    return _CONDITION.get(cond) or (cond, None)
+
+
+_CONDITION = {"actual": ("actual", None), "simulated": ("simulated", None)}  # shared results
 
 
 def _condition_ok(cond: str | None, wanted: str) -> bool:
@@ -211,6 +243,56 @@ def _hundredths(hours: float) -> int:
     return round(hours * 100)
 
 
+def _count_approaches(
+    approaches: tuple, device: str, named: bool, conditions: str, hand_flown_only: bool, entry_condition: tuple | None,
+    problems: list | None,
+) -> int:
+    """Creditable approaches among an entry's ``approaches``; with a ``problems`` list, the reasons
+    others were not credited are appended to it. ``entry_condition``: ``_instrument_condition`` of the
+    entry (needed unless ``conditions`` is any); ``named``: a safety pilot or instructor is named.
+    """
+    count = 0
+    entry_cond = entry_problem = None
+    if conditions != r.CONDITIONS_ANY:
+        entry_cond, entry_problem = entry_condition
+    for i, ap in enumerate(approaches, start=1):
+        if not (ap.type and ap.airfield):
+            if problems is not None:
+                problems.append(f"approach {i} has no type or airfield logged ({_NEEDS_LOGGING}; FAA InFO 15012)")
+            continue
+        if hand_flown_only and ap.coupled:
+            continue
+        if conditions != r.CONDITIONS_ANY:
+            if device != "aircraft" or ap.conditions is None:
+                cond, problem = entry_cond, entry_problem
+            elif ap.conditions == "simulated" and not named:
+                cond = None
+                problem = "simulated instrument work in an aircraft with neither safety pilot nor instructor named (14 CFR 91.109(c), 61.51(g))"
+            else:
+                cond, problem = ap.conditions, None
+            if problem:
+                if problems is not None:
+                    problems.append(f"approach {i}: {problem}")
+                continue
+            if not _condition_ok(cond, conditions):
+                continue
+        count += 1
+    return count
+
+
+def _hour_units(unit: str, conditions: str, device: str, actual_hours: float, simulated_hours: float, named: bool) -> int:
+    """Creditable instrument time of an entry in hundredths of an hour (``named``: a safety pilot or instructor)."""
+    actual = _hundredths(actual_hours)
+    sim = _hundredths(simulated_hours)
+    if unit == r.ACTUAL_INSTRUMENT_HOURS or conditions == r.CONDITIONS_ACTUAL:
+        return actual if device == "aircraft" else 0
+    if conditions == r.CONDITIONS_ANY or device != "aircraft":
+        return actual + sim
+    if sim and not named:
+        return actual
+    return actual + sim
+
+
 def units_on(
     entry: Entry, unit: str, conditions: str, hand_flown_only: bool = False, entry_condition: tuple | None = None
 ) -> tuple[int, tuple[str, ...]]:
@@ -219,33 +301,13 @@ def units_on(
 
     ``entry_condition`` may pass a precomputed ``_instrument_condition(entry)``.
     """
-    problems: list[str] = []
+    named = bool(entry.safety_pilot or entry.instructor)
     if unit == r.APPROACHES:
-        count = 0
-        entry_cond = entry_problem = None
+        problems: list[str] = []
+        entry_cond = None
         if conditions != r.CONDITIONS_ANY:
-            entry_cond, entry_problem = entry_condition or _instrument_condition(entry)
-        named = bool(entry.safety_pilot or entry.instructor)
-        for i, ap in enumerate(entry.approaches, start=1):
-            if not (ap.type and ap.airfield):
-                problems.append(f"approach {i} has no type or airfield logged ({_NEEDS_LOGGING}; FAA InFO 15012)")
-                continue
-            if hand_flown_only and ap.coupled:
-                continue
-            if conditions != r.CONDITIONS_ANY:
-                if entry.device != "aircraft" or ap.conditions is None:
-                    cond, problem = entry_cond, entry_problem
-                elif ap.conditions == "simulated" and not named:
-                    cond = None
-                    problem = "simulated instrument work in an aircraft with neither safety pilot nor instructor named (14 CFR 91.109(c), 61.51(g))"
-                else:
-                    cond, problem = ap.conditions, None
-                if problem:
-                    problems.append(f"approach {i}: {problem}")
-                    continue
-                if not _condition_ok(cond, conditions):
-                    continue
-            count += 1
+            entry_cond = entry_condition or _instrument_condition(entry)
+        count = _count_approaches(entry.approaches, entry.device, named, conditions, hand_flown_only, entry_cond, problems)
         if entry.unlogged_approaches:
             problems.append(
                 f"{entry.unlogged_approaches} approach(es) logged as a number without type and airfield ({_NEEDS_LOGGING}; FAA InFO 15012)"
@@ -253,15 +315,20 @@ def units_on(
         return count, tuple(problems)
 
     if unit in (r.INSTRUMENT_HOURS, r.ACTUAL_INSTRUMENT_HOURS):
-        actual = _hundredths(entry.instrument_actual_hours)
-        sim = _hundredths(entry.instrument_simulated_hours)
-        if unit == r.ACTUAL_INSTRUMENT_HOURS or conditions == r.CONDITIONS_ACTUAL:
-            return (actual if entry.device == "aircraft" else 0), ()
-        if conditions == r.CONDITIONS_ANY or entry.device != "aircraft":
-            return actual + sim, ()
-        if sim and not (entry.safety_pilot or entry.instructor):
-            return actual, ("simulated instrument time in an aircraft with neither safety pilot nor instructor named (14 CFR 91.109(c), 61.51(g))",)
-        return actual + sim, ()
+        amount = _hour_units(
+            unit, conditions, entry.device, entry.instrument_actual_hours, entry.instrument_simulated_hours, named
+        )
+        if (
+            unit == r.INSTRUMENT_HOURS
+            and conditions not in (r.CONDITIONS_ANY, r.CONDITIONS_ACTUAL)
+            and entry.device == "aircraft"
+            and _hundredths(entry.instrument_simulated_hours)
+            and not named
+        ):
+            return amount, (
+                "simulated instrument time in an aircraft with neither safety pilot nor instructor named (14 CFR 91.109(c), 61.51(g))",
+            )
+        return amount, ()
 
     if unit == r.HOLDS:
         amount = entry.holds
@@ -336,79 +403,237 @@ class _Index:
     looks at the entries it can credit.
     """
 
-    def __init__(self, entries: Iterable[Entry]):
-        self.entries: list[Entry] = sorted(entries, key=attrgetter("date", "id"))
-        self.ords: list[int] = [e.date.toordinal() for e in self.entries]
-        self._buckets: dict[tuple, tuple[int, dict]] = {}
-        self._checks: list[tuple[int, int]] | None = None
+    def __init__(self, entries: Iterable[Entry], until: date | None = None):
+        """``entries`` dated on or before ``until`` (all if None), sorted by date and id."""
+        entries = list(entries)
+        dates, ids, checks = _fields(entries, _HEAD)
+        if until is not None and dates and max(dates) > until:
+            kept = list(compress(range(len(entries)), map(ge, repeat(until), dates)))
+            entries = [entries[i] for i in kept]
+            dates = [dates[i] for i in kept]
+            ids = [ids[i] for i in kept]
+            checks = [checks[i] for i in kept]
+        in_order = all(map(le, dates, islice(dates, 1, None))) and not any(
+            map(and_, map(eq, dates, islice(dates, 1, None)), map(gt, ids, islice(ids, 1, None)))
+        )
+        if not in_order:
+            order = sorted(range(len(entries)), key=lambda i: (dates[i], ids[i]))  # stable, as sorting by (date, id)
+            entries = [entries[i] for i in order]
+            dates = [dates[i] for i in order]
+            checks = [checks[i] for i in order]
+        self.entries: list[Entry] = entries
+        self.ords: list[int] = list(map(date.toordinal, dates))
+        ords = self.ords
+        self._checks: list[tuple[int, int]] = [(i, ords[i]) for i in compress(range(len(entries)), checks)]
+        self._rows: dict[tuple, tuple] = {}
         self.series_cache: dict[tuple, _TaskSeries] = {}
-        self._conds: dict[int, tuple] = {}
+        n = len(self.entries)
+        self._cols: dict[str, list] = {name: [None] * n for name in _ROW_FIELDS + _DERIVED_FIELDS}
+        self._cols_from = n  # columns are filled in for entries from this index on
+        self._bucket_ids: dict[tuple, int] = {}  # (device, category, class) -> a small number
+        self._buckets: list[tuple] = []
+        self._approaches: dict[tuple[int, int], tuple] = {}
+        self.units_memo: dict[tuple, dict[int, tuple]] = {}  # (unit, conditions, hand) -> entry index -> units_on
+
+    def bucket(self, number: int) -> tuple:
+        """The (device, category, class) with this number."""
+        if len(self._buckets) != len(self._bucket_ids):
+            self._buckets = list(self._bucket_ids)  # numbered in order of first sight
+        return self._buckets[number]
 
     def upto(self, day_ord: int) -> int:
         """Number of entries dated on or before the ordinal ``day_ord``."""
         return bisect_right(self.ords, day_ord)
 
-    def buckets(self, unit: str, conditions: str, hand: bool, first: int = 0) -> dict[tuple, tuple[list, list, list]]:
-        """(device, category, class) -> (ordinals, amounts, entry indexes) of creditable work, by date.
+    def rows(self, unit: str, conditions: str, hand: bool, first: int = 0) -> tuple[list, list, list, tuple]:
+        """Creditable work of one kind, by date: (entry indexes, amounts, bucket of each row,
+        the buckets seen), where a bucket is the number of a (device, category, class),
+        see ``bucket``.
 
         Covers at least the entries from index ``first`` on; older entries are
         read only when a caller asks for them.
         """
         key = (unit, conditions, hand)
-        done_from, cached = self._buckets.get(key, (len(self.entries), {}))
-        if first < done_from:
-            older = self._bucket_range(unit, conditions, hand, first, done_from)
-            for bucket_key, (o, a, i) in cached.items():
-                b = older.get(bucket_key)
-                if b is None:
-                    older[bucket_key] = (o, a, i)
-                else:
-                    b[0].extend(o)
-                    b[1].extend(a)
-                    b[2].extend(i)
-            cached = older
-            done_from = first
-            self._buckets[key] = (done_from, cached)
-        return cached
+        cached = self._rows.get(key)
+        if cached is None or first < cached[0]:
+            done = len(self.entries) if cached is None else cached[0]
+            idxs, amounts = self._units_range(unit, conditions, hand, first, done)
+            covered = bisect_left(idxs, self._cols_from)  # rows before this one are not in the columns
+            ids = self._bucket_ids
+            buckets = [ids.setdefault(k, len(ids)) for k in map(_BUCKET, map(self.entries.__getitem__, idxs[:covered]))]
+            buckets.extend(map(self._cols["bucket"].__getitem__, idxs[covered:]))
+            if cached is not None:
+                idxs.extend(cached[1])
+                amounts.extend(cached[2])
+                buckets.extend(cached[3])
+            cached = self._rows[key] = (first, idxs, amounts, buckets, tuple(dict.fromkeys(buckets)))
+        return cached[1:]
 
-    def _bucket_range(self, unit: str, conditions: str, hand: bool, lo: int, hi: int) -> dict:
-        out: dict[tuple, tuple[list, list, list]] = {}
-        ords = self.ords
-        entries = self.entries
+    def _columns(self, lo: int) -> dict[str, list]:
+        """The entry fields the engine counts, one list per field (plus ``named``, ``condition``
+        and ``bucket``), filled in for at least the entries from index ``lo`` on.
+
+        Reading each entry once into flat lists keeps the per-unit passes cheap.
+        """
+        cols = self._cols
+        done = self._cols_from
+        if lo < done:
+            fields = [cols[name] for name in _ROW_FIELDS]
+            entries = self.entries
+            for start in range(lo, done, _CHUNK):  # in chunks: few objects alive at once
+                stop = min(start + _CHUNK, done)
+                for column, values in zip(fields, zip(*map(_ROW, entries[start:stop]))):
+                    column[start:stop] = values
+            named = [bool(sp or ins) for sp, ins in zip(cols["safety_pilot"][lo:done], cols["instructor"][lo:done])]
+            cols["named"][lo:done] = named
+            cols["condition"][lo:done] = map(
+                _condition_of,
+                cols["device"][lo:done],
+                cols["conditions"][lo:done],
+                cols["instrument_actual_hours"][lo:done],
+                cols["instrument_simulated_hours"][lo:done],
+                named,
+            )
+            ids = self._bucket_ids
+            cols["bucket"][lo:done] = [
+                ids.setdefault(k, len(ids))
+                for k in zip(cols["device"][lo:done], cols["category"][lo:done], cols["aircraft_class"][lo:done])
+            ]
+            cols["actual_units"][lo:done] = map(round, map(mul, cols["instrument_actual_hours"][lo:done], repeat(100)))
+            cols["simulated_units"][lo:done] = map(round, map(mul, cols["instrument_simulated_hours"][lo:done], repeat(100)))
+            self._cols_from = lo
+        return cols
+
+    def _flat_approaches(self, lo: int, hi: int) -> tuple[list, ...]:
+        """The approaches of entries lo..hi-1: (entries with approaches, offset of each entry's first
+        approach (and one past the last), then per approach: its entry, type and airfield logged,
+        coupled, conditions)."""
+        approaches = self._cols["approaches"]
+        holders = list(compress(range(lo, hi), approaches[lo:hi]))
+        tuples = list(map(approaches.__getitem__, holders))
+        offsets = [0]
+        offsets.extend(accumulate(map(len, tuples)))
+        owner = list(chain.from_iterable(map(repeat, holders, map(len, tuples))))
+        flat = list(chain.from_iterable(tuples))
+        types, fields, coupled, conditions = _fields(flat, ("type", "airfield", "coupled", "conditions"))
+        logged = [bool(t and f) for t, f in zip(types, fields)]
+        return holders, offsets, owner, logged, coupled, conditions
+
+    def _units_range(self, unit: str, conditions: str, hand: bool, lo: int, hi: int) -> tuple[list, list]:
+        """(entry indexes, amounts) of the entries lo..hi-1 with creditable work of one kind
+        (as ``units_on``; hours in hundredths)."""
+        span = range(lo, hi)
         attr = _SIMPLE_UNITS.get(unit)
-        if attr is not None and conditions == r.CONDITIONS_ANY:
-            rows = [(i, getattr(entries[i], attr)) for i in range(lo, hi) if getattr(entries[i], attr)]
-            if attr == "course_tracking":
-                rows = [(i, 1) for i, _ in rows]
-        else:
-            rows = []
-            conds = self._conds
-            for i in range(lo, hi):
-                e = entries[i]
-                if _may_have(e, unit):
-                    c = conds.get(i)
-                    if c is None:
-                        c = conds[i] = _instrument_condition(e)
-                    amount = units_on(e, unit, conditions, hand, c)[0]
-                    if amount:
-                        rows.append((i, amount))
-        for i, amount in rows:
-            e = entries[i]
-            bucket_key = (e.device, e.category, e.aircraft_class)
-            b = out.get(bucket_key)
-            if b is None:
-                b = out[bucket_key] = ([], [], [])
-            b[0].append(ords[i])
-            b[1].append(amount)
-            b[2].append(i)
-        return out
+        if attr is not None and conditions == r.CONDITIONS_ANY and lo < self._cols_from:
+            # one field: read it directly rather than fill in every column (evaluate's long look-backs)
+            values = list(map(attrgetter(attr), self.entries[lo:hi]))
+            keep = list(compress(span, values))
+            amounts = [1] * len(keep) if attr == "course_tracking" else [values[i - lo] for i in keep]
+            return keep, amounts
+        cols = self._columns(lo)
+        if attr is not None:
+            values = cols[attr]
+            keep = compress(span, values[lo:hi])
+            if conditions == r.CONDITIONS_ANY:
+                keep = list(keep)
+            else:
+                condition = cols["condition"]
+                if conditions == r.CONDITIONS_ACTUAL:
+                    keep = [i for i in keep if values[i] > 0 and condition[i][0] == "actual"]
+                else:
+                    keep = [i for i in keep if values[i] > 0 and condition[i][0] is not None]
+            amounts = [1] * len(keep) if attr == "course_tracking" else list(map(values.__getitem__, keep))
+            return keep, amounts
+        if unit in r.HOUR_UNITS:
+            actual = cols["actual_units"][lo:hi]
+            device = cols["device"][lo:hi]
+            if unit == r.ACTUAL_INSTRUMENT_HOURS or conditions == r.CONDITIONS_ACTUAL:
+                units = [a if d == "aircraft" else 0 for a, d in zip(actual, device)]
+            elif conditions == r.CONDITIONS_ANY:
+                units = list(map(add, actual, cols["simulated_units"][lo:hi]))
+            else:
+                units = [
+                    a + s if (named or d != "aircraft" or not s) else a
+                    for a, s, d, named in zip(actual, cols["simulated_units"][lo:hi], device, cols["named"][lo:hi])
+                ]
+            logged_actual = cols["instrument_actual_hours"]
+            logged_sim = cols["instrument_simulated_hours"]
+            if unit == r.ACTUAL_INSTRUMENT_HOURS:
+                keep = [i for i in compress(span, units) if logged_actual[i] > 0]
+            else:
+                keep = [i for i in compress(span, units) if logged_actual[i] > 0 or logged_sim[i] > 0]
+            return keep, [units[i - lo] for i in keep]
+        if unit == r.APPROACHES:
+            # Every approach of the entries lo..hi-1 in one flat list (as _count_approaches judges them).
+            flat = self._approaches.get((lo, hi))
+            if flat is None:
+                flat = self._approaches[(lo, hi)] = self._flat_approaches(lo, hi)
+            holders, offsets, owner, logged, coupled, ap_conditions = flat
+            credited = logged
+            if hand:
+                credited = [a and not c for a, c in zip(credited, coupled)]
+            if conditions != r.CONDITIONS_ANY:
+                device = cols["device"]
+                named = cols["named"]
+                condition = cols["condition"]
+                how = [
+                    condition[i][0] if device[i] != "aircraft" or c is None
+                    else None if c == "simulated" and not named[i]
+                    else c
+                    for i, c in zip(owner, ap_conditions)
+                ]
+                if conditions == r.CONDITIONS_ACTUAL:
+                    credited = [a and h == "actual" for a, h in zip(credited, how)]
+                else:
+                    credited = [a and h is not None for a, h in zip(credited, how)]
+            running = [0]
+            running.extend(accumulate(credited))
+            at = list(map(running.__getitem__, offsets))
+            counts = list(map(sub, islice(at, 1, None), at))  # credited approaches of each holder
+            return list(compress(holders, counts)), list(compress(counts, counts))
+        raise ValueError(f"unknown task unit {unit!r}")  # pragma: no cover - the loader refuses unknown units
 
     def checks(self) -> list[tuple[int, int]]:
         """(entry index, ordinal) of entries with any check."""
-        if self._checks is None:
-            self._checks = [(i, self.ords[i]) for i, e in enumerate(self.entries) if e.checks]
         return self._checks
 
+
+_ROW_FIELDS = (
+    "device",
+    "category",
+    "aircraft_class",
+    "conditions",
+    "approaches",
+    "holds",
+    "course_tracking",
+    "instrument_actual_hours",
+    "instrument_simulated_hours",
+    "landings",
+    "night_full_stop_landings",
+    "partial_panel_approaches",
+    "ua_nose_high",
+    "ua_nose_low",
+    "safety_pilot",
+    "instructor",
+)
+_ROW = attrgetter(*_ROW_FIELDS)
+_CHUNK = 512
+_NOTHING = (0, ())  # units_on of an entry without any work of the unit
+_HEAD = ("date", "id", "checks")
+_BUCKET = attrgetter("device", "category", "aircraft_class")
+
+
+def _fields(entries: list[Entry], names: tuple[str, ...]) -> list[list]:
+    """One list per field in ``names``, reading each entry once."""
+    getter = attrgetter(*names)
+    out: list[list] = [[] for _ in names]
+    for start in range(0, len(entries), _CHUNK):  # in chunks: few objects alive at once
+        for column, values in zip(out, zip(*map(getter, entries[start:start + _CHUNK]))):
+            column.extend(values)
+    return out
+# Worked out from the fields: a safety pilot or instructor is named; _instrument_condition;
+# (device, category, class); instrument hours in hundredths (as _hundredths).
+_DERIVED_FIELDS = ("named", "condition", "bucket", "actual_units", "simulated_units")
 
 _SIMPLE_UNITS = {
     r.HOLDS: "holds",
@@ -474,10 +699,59 @@ def _start(window: Window, o: int) -> int:
     return v
 
 
+def _month_start(index: int) -> int:
+    """Ordinal of the first day of the month with this ``month_index``."""
+    v = _MONTH_START.get(index)
+    if v is None:
+        v = _MONTH_START[index] = first_of_month_index(index).toordinal()
+    return v
+
+
+_MONTH_START: dict[int, int] = {}
+
+
+def _ends(window: Window, days: list[int]) -> list[int]:
+    """``_end(window, d)`` for each ordinal of the ascending list ``days``.
+
+    Days windows are plain arithmetic. The other windows are worked out a
+    month of ``days`` at a time: calendar months end on the same day for the
+    whole month; to the day, the day of the month is kept (clamped to the
+    target month's last day).
+    """
+    if window.unit == DAYS:
+        return list(map(add, days, repeat(window.length if window.inclusive else window.length - 1, len(days))))
+    out: list[int] = []
+    n = len(days)
+    i = 0
+    if window.unit == CALENDAR_MONTHS:
+        while i < n:
+            month = month_index(date.fromordinal(days[i]))
+            j = bisect_left(days, _month_start(month + 1), i)
+            out.extend(repeat(_month_start(month + window.length + 1) - 1, j - i))
+            i = j
+        return out
+    months = window.length if window.unit == MONTHS_TO_THE_DAY else 12 * window.length
+    early = 0 if window.inclusive else 1
+    while i < n:
+        month = month_index(date.fromordinal(days[i]))
+        start = _month_start(month)
+        following = _month_start(month + 1)
+        j = bisect_left(days, following, i)
+        target = _month_start(month + months)
+        target_last = _month_start(month + months + 1) - target - 1  # last day of the target month, from 0
+        if following - start - 1 <= target_last:  # every day of this month exists in the target month
+            out.extend(map(add, days[i:j], repeat(target - start - early, j - i)))
+        else:
+            out.extend([target + (d - start if d - start < target_last else target_last) - early for d in days[i:j]])
+        i = j
+    return out
+
+
 def clear_caches() -> None:
     """Forget memoised window arithmetic (for benchmarks)."""
     _END_CACHE.clear()
     _START_CACHE.clear()
+    _MONTH_START.clear()
 
 
 def _intersect(a: list[tuple[int, int]], b: list[tuple[int, int]]) -> list[tuple[int, int]]:
@@ -528,34 +802,39 @@ class _TaskSeries:
         need = task.minimum_units
         self.simple = window.unit != "calendar-months" or window.current_month_counts
         self.starts = days if self.simple else [_start(window, d) for d in days]
-        end_cache = _END_CACHE.get(window)
-        if end_cache is None:
-            end_cache = _END_CACHE[window] = {}
-        ends = []
-        for d in days:
-            v = end_cache.get(d)
-            if v is None:
-                v = end_cache[d] = credit_end(window, date.fromordinal(d)).toordinal()
-            ends.append(v)
-        self.ends = ends
-        prefix = [0]
-        total = 0
-        for a in amounts:
-            total += a
-            prefix.append(total)
-        self.prefix = prefix
+        self.ends = ends = _ends(window, days)
+        self._endl_ext: list[int] | None = None
+        self._day_ends: tuple[list[int], list[int]] | None = None
+        self.prefix = prefix = [0]
+        prefix.extend(accumulate(amounts))
         # endl[j]: last day the task is met using units up to group j
         # (the n-th most recent unit's credit end), or -1 if too few units.
+        if need >= 1 and amounts and min(amounts) >= need:
+            # Every row alone holds enough units: the n-th most recent unit is in the row itself.
+            self.endl = ends
+            return
+        if need >= 1 and amounts and min(amounts) > 0:
+            # Prefix sums rise strictly: the row holding the n-th most recent unit is found by
+            # binary search (the row j with prefix[j] <= target < prefix[j + 1]).
+            targets = list(map(sub, islice(prefix, 1, None), repeat(need)))
+            too_few = bisect_left(targets, 0)
+            ends_after = [-1]
+            ends_after.extend(ends)  # ends_after[j + 1] == ends[j]
+            endl = [-1] * too_few
+            endl.extend(map(ends_after.__getitem__, map(partial(bisect_right, prefix), islice(targets, too_few, None))))
+            self.endl = endl
+            return
         endl = []
+        append = endl.append
         limit = 0  # the n-th most recent row moves forward only: two pointers, no search
         for j in range(len(days)):
             target = prefix[j + 1] - need
             if target < 0:
-                endl.append(-1)
+                append(-1)
                 continue
             while prefix[limit + 1] <= target:
                 limit += 1
-            endl.append(ends[limit])
+            append(ends[limit])
         self.endl = endl
 
     def tail_end(self, day: int) -> int:
@@ -563,20 +842,75 @@ class _TaskSeries:
         last = bisect_right(self.days, day) - 1
         return self.endl[last] if last >= 0 else -1
 
+    def _unique_day_ends(self) -> tuple[list[int], list[int]]:
+        """Each day with work, and the tail end from that day (from the day's last row)."""
+        if self._day_ends is None:
+            d = self.days
+            last = list(compress(range(len(d)), map(ne, d, chain(islice(d, 1, None), (_INF,)))))
+            self._day_ends = (list(map(d.__getitem__, last)), list(map(self.endl.__getitem__, last)))
+        return self._day_ends
+
+    def tail_ends(self, days: list[int], position: dict[int, int] | None = None) -> list[int]:
+        """``tail_end`` of each of the ascending ``days``.
+
+        ``position`` (day -> index in ``days``) allows a quicker path when
+        ``days`` includes every day with work between its first and last day:
+        the value then changes only on those days and is repeated in between.
+        """
+        if position is not None and days:
+            unique, values = self._unique_day_ends()
+            a = bisect_left(unique, days[0])
+            b = bisect_right(unique, days[-1])
+            before = values[a - 1] if a else -1
+            at = list(map(position.get, unique[a:b]))
+            if None not in at:
+                if not at:
+                    return [before] * len(days)
+                out = [before] * at[0]
+                following = at[1:]
+                following.append(len(days))
+                out.extend(chain.from_iterable(map(repeat, values[a:b], map(sub, following, at))))
+                return out
+        ext = self._endl_ext
+        if ext is None:
+            ext = self._endl_ext = [-1]
+            ext.extend(self.endl)
+        return list(map(ext.__getitem__, map(partial(bisect_right, self.days), days)))
+
     def intervals(self) -> list[tuple[int, int]]:
         """Days on which the task is met (sorted, disjoint, inclusive ordinals)."""
+        if self.simple:
+            # From each day with work the task is met through its tail end, but no further
+            # than the next such day (which takes over); touching pieces join.
+            unique, values = self._unique_day_ends()
+            following = unique[1:]
+            following.append(_INF)
+            ends = [v if v < f else f - 1 for v, f in zip(values, following)]
+            met = list(map(ge, ends, unique))
+            joins = [a and b and e == f - 1 for a, b, e, f in zip(met, islice(met, 1, None), ends, following)]
+            joins.append(False)  # joins[k]: piece k runs on into piece k + 1
+            firsts = [m and not j for m, j in zip(met, chain((False,), joins))]
+            lasts = [m and not j for m, j in zip(met, joins)]
+            return list(zip(compress(unique, firsts), compress(ends, lasts)))
         out: list[tuple[int, int]] = []
-        n = len(self.days)
-        for j in range(n):
-            s = self.starts[j]
-            e = self.endl[j]
-            if j + 1 < n and self.starts[j + 1] - 1 < e:
-                e = self.starts[j + 1] - 1
-            if e >= s:
-                if out and s <= out[-1][1] + 1:
-                    out[-1] = (out[-1][0], max(out[-1][1], e))
-                else:
-                    out.append((s, e))
+        starts = self.starts
+        nexts = starts[1:]
+        nexts.append(_INF)
+        cs = ce = None
+        for s, e, nx in zip(starts, self.endl, nexts):
+            if e >= nx:  # the next row's day takes over
+                e = nx - 1
+            if e < s:
+                continue
+            if ce is not None and s <= ce + 1:
+                if e > ce:
+                    ce = e
+            else:
+                if ce is not None:
+                    out.append((cs, ce))
+                cs, ce = s, e
+        if ce is not None:
+            out.append((cs, ce))
         return out
 
     def tail(self, day: int) -> list[tuple[int, int]]:
@@ -735,39 +1069,33 @@ class _Judged:
         lo = max(self.lower, task.entries_from.toordinal() if task.entries_from else -_INF)
         hi = min(self.limit_ord, task.entries_until.toordinal() if task.entries_until else _INF)
         first = bisect_left(self.index.ords, lo) if lo > -_INF else 0
-        buckets = self.index.buckets(task.unit, task.conditions, task.hand_flown_only, first)
+        rows = self.index.rows(task.unit, task.conditions, task.hand_flown_only, first)
+        bucket = self.index.bucket
         chosen = tuple(
-            k for k in buckets
+            n for n, k in zip(rows[3], map(bucket, rows[3]))
             if k[0] in task.devices and (self.cat is None or k[1] == self.cat) and (self.cls is None or k[2] == self.cls)
         )
         cache_key = (task.unit, task.conditions, task.hand_flown_only, chosen, lo, hi, window, task.minimum_units)
         cached = self.index.series_cache.get(cache_key)
         if cached is None:
-            cached = self.index.series_cache[cache_key] = self._build_series(task, window, buckets, chosen, lo, hi)
+            cached = self.index.series_cache[cache_key] = self._build_series(task, window, rows, chosen, lo, hi)
         return cached
 
-    def _build_series(self, task: r.Task, window: Window, buckets: dict, chosen: tuple, lo: int, hi: int) -> _TaskSeries:
-        parts = []
-        for key in chosen:
-            ords, amounts, idxs = buckets[key]
-            a = bisect_left(ords, lo)
-            b = bisect_right(ords, hi)
-            if a < b:
-                parts.append((ords, amounts, idxs, a, b))
-        if not parts:
+    def _build_series(self, task: r.Task, window: Window, rows: tuple, chosen: tuple, lo: int, hi: int) -> _TaskSeries:
+        idxs, amounts, buckets, seen = rows
+        ords = self.index.ords
+        # rows of entries dated lo..hi (entry indexes follow the dates)
+        a = bisect_left(idxs, bisect_left(ords, lo))
+        b = bisect_left(idxs, bisect_right(ords, hi))
+        if not chosen or a >= b:
             return _TaskSeries(task, window, [], [], [], self.index.entries)
-        if len(parts) == 1:
-            ords, amounts, idxs, a, b = parts[0]
-            return _TaskSeries(task, window, ords[a:b], amounts[a:b], idxs[a:b], self.index.entries)
-        rows = sorted(
-            zip(
-                [o for p in parts for o in p[0][p[3]:p[4]]],
-                [i for p in parts for i in p[2][p[3]:p[4]]],
-                [x for p in parts for x in p[1][p[3]:p[4]]],
-            )
-        )
-        days, idxs, sums = (list(t) for t in zip(*rows))
-        return _TaskSeries(task, window, days, sums, idxs, self.index.entries)
+        idxs = idxs[a:b]
+        amounts = amounts[a:b]
+        if len(chosen) < len(seen):
+            mask = list(map(frozenset(chosen).__contains__, buckets[a:b]))
+            idxs = list(compress(idxs, mask))
+            amounts = list(compress(amounts, mask))
+        return _TaskSeries(task, window, list(map(ords.__getitem__, idxs)), amounts, idxs, self.index.entries)
 
     def _problems(self, first: int) -> list[tuple[int, str]]:
         """(entry index, reason) for work from entry ``first`` on that this requirement does not credit."""
@@ -778,12 +1106,17 @@ class _Judged:
                 tasks.setdefault((task.unit, task.conditions, task.hand_flown_only), set()).update(task.devices)
         others = {s.split("/", 1)[0] for s in self.covered_scopes}
         entries = self.index.entries
+        # units_on of an entry is the same for every requirement and scope: worked out once per index
+        judged = [(key, devices, self.index.units_memo.setdefault(key, {})) for key, devices in tasks.items()]
         for i in range(first, self.limit):
             e = entries[i]
-            for (unit, conditions, hand), devices in tasks.items():
-                if e.device not in devices or not _may_have(e, unit):
+            for (unit, conditions, hand), devices, memo in judged:
+                if e.device not in devices:
                     continue
-                amount, problems = units_on(e, unit, conditions, hand)
+                found = memo.get(i)
+                if found is None:
+                    found = memo[i] = units_on(e, unit, conditions, hand) if _may_have(e, unit) else _NOTHING
+                amount, problems = found
                 if not (amount or problems):
                     continue
                 if self._in_scope(e):
@@ -803,7 +1136,8 @@ class _Judged:
         for _path, series in self.paths:
             for s in series:
                 days.update(s.days)
-                days.update(s.starts)
+                if s.starts is not s.days:
+                    days.update(s.starts)
         return days
 
     def _checks(self) -> list[_Check]:
@@ -899,6 +1233,104 @@ class _Judged:
             if s <= end + 1 and e > end:
                 end = e
         return end
+
+    def _projected_ends(self, days: list[int]) -> list[int]:
+        """``_projected_end`` of each of the ascending ``days``, all inside one period.
+
+        With simple windows every path's projected end is a lookup per task
+        (``tail_ends``), and the spans are merged for all days at once: spans
+        of paths in force on the day (and of the check covering it) all start
+        on the day, so the merged end is their maximum; spans of paths that
+        come into force later join in order of their first day if they touch.
+        """
+        if not all(simple and series for (_path, series), (_lo, _hi, simple) in zip(self.paths, self._path_bounds)):
+            return [self._projected_end(day) for day in days]
+        n = len(days)
+        columns = [days]
+        later: list[tuple[int, int, list[int]]] = []  # (first day in force, split, ends) of paths not yet in force
+        position = dict(zip(days, range(n)))
+        for (_path, series), (lo, hi, _simple) in zip(self.paths, self._path_bounds):
+            if hi < days[0]:
+                continue  # no longer in force: its spans end before they start
+            ends = series[0].tail_ends(days, position)
+            for s in series[1:]:
+                ends = [x if x < y else y for x, y in zip(ends, s.tail_ends(days, position))]
+            if hi < _INF:
+                ends = [x if x < hi else hi for x in ends]
+            split = bisect_left(days, lo) if lo > -_INF else 0  # days[:split] are before the path is in force
+            if split:
+                later.append((lo, split, ends[:split]))
+                ends = [-_INF] * split + ends[split:]
+            columns.append(ends)
+        if self.checks:
+            reach = [-_INF]
+            reach.extend(self._check_reach)
+            columns.append(list(map(reach.__getitem__, map(partial(bisect_right, self._check_days), days))))
+        merged = columns[0]
+        for column in columns[1:]:
+            merged = [x if x > y else y for x, y in zip(merged, column)]
+        if merged is days:
+            merged = list(days)
+        for lo, split, ends in sorted(later, key=lambda t: t[0]):
+            merged[:split] = [e if lo <= m + 1 and e > m else m for m, e in zip(merged[:split], ends)]
+        return merged
+
+    def changes(self, lo: int, hi: int) -> list[StateChange]:
+        """The stand (viewed from each day, as ``stand(day, project=True)``) on each day from ``lo``
+        through ``hi`` on which it differs from the day before; the first is on ``lo``.
+
+        Outside periods of currency the stand changes only where a period starts
+        or ends or a grace stage ends; inside a period only where work or a check
+        is dated (or starts counting), so only those days are looked at, and
+        inside a period the projected ends of all those days are worked out at once.
+        """
+        candidates = {lo}
+        candidates.update(self.unit_days())
+        for s, e in self.periods:
+            candidates.add(s)
+            candidates.add(e + 1)
+            g = self._grace_end(e)
+            if g is not None:
+                candidates.add(g + 1)
+        days = sorted(candidates)
+        days = days[bisect_left(days, lo):bisect_right(days, hi)]
+        out: list[StateChange] = []
+        previous = None
+        fromordinal = date.fromordinal
+
+        def outside(days: list[int]) -> None:
+            nonlocal previous
+            for day in days:
+                stand = self.stand(day, project=True)
+                if stand != previous:
+                    state, through, regain_by, regain_with = stand
+                    out.append(StateChange(fromordinal(day), state, _from_ord(through), _from_ord(regain_by), regain_with))
+                    previous = stand
+
+        done = 0
+        for s, e in self.periods:
+            if e < lo or s > hi:
+                continue
+            first = bisect_left(days, s if s > lo else lo)
+            last = bisect_right(days, e)
+            outside(days[done:first])
+            inside = days[first:last]
+            ends = self._projected_ends(inside)
+            steps = [] if previous == (CURRENT, ends[0], None, None) else [0]
+            steps.extend(compress(range(1, len(ends)), map(ne, ends[1:], ends)))
+            n = len(steps)
+            out.extend(map(
+                StateChange,
+                map(fromordinal, map(inside.__getitem__, steps)),
+                repeat(CURRENT, n),
+                map(fromordinal, map(ends.__getitem__, steps)),
+                repeat(None, n),
+                repeat(None, n),
+            ))
+            previous = (CURRENT, ends[-1], None, None)
+            done = last
+        outside(days[done:])
+        return out
 
     def evidence(self, valid_through: int | None) -> list[str]:
         if valid_through is None:
@@ -1033,7 +1465,7 @@ def evaluate(
     after it are ignored. ``planned`` entries are treated exactly like logged
     ones (for what-if questions; see ``what_if``).
     """
-    index = _Index(e for e in _merge(logbook, planned) if e.date <= as_of)
+    index = _Index(_merge(logbook, planned), as_of)
     limit = len(index.entries)
     day = as_of.toordinal()
     statuses = []
@@ -1076,31 +1508,14 @@ def timeline(
     """
     if end < start:
         raise ValueError("timeline end is before its start")
-    index = _Index(e for e in _merge(logbook, planned) if e.date <= end)
+    index = _Index(_merge(logbook, planned), end)
     limit = len(index.entries)
     lo, hi = start.toordinal(), end.toordinal()
     out = []
     for rs, req, scope, scopes in _instances(logbook, rule_sets):
         judged = _Judged(rs, req, scope, index, limit, scopes)
-        candidates = {lo}
-        candidates.update(judged.unit_days())
-        for s, e in judged.periods:
-            candidates.add(s)
-            candidates.add(e + 1)
-            g = judged._grace_end(e)
-            if g is not None:
-                candidates.add(g + 1)
-        changes: list[StateChange] = []
-        previous = None
-        for day in sorted(c for c in candidates if lo <= c <= hi):
-            stand = judged.stand(day, project=True)
-            if stand != previous:
-                state, through, regain_by, regain_with = stand
-                changes.append(
-                    StateChange(date.fromordinal(day), state, _from_ord(through), _from_ord(regain_by), regain_with)
-                )
-                previous = stand
-        out.append(RequirementTimeline(rs.id, req.id, scope, req.title, req.citation, tuple(changes)))
+        changes = tuple(judged.changes(lo, hi))
+        out.append(RequirementTimeline(rs.id, req.id, scope, req.title, req.citation, changes))
     return TimelineReport(
         start=start,
         end=end,
