@@ -65,7 +65,7 @@ def _is_personal(rule_set: r.RuleSet) -> bool:
 def _in_scope(requirement: r.Requirement, scopes: tuple[str, ...], entry: Entry) -> bool:
     """Whether the entry is judged under one of the requirement's scopes for this pilot (engine's filter)."""
     for scope in scopes:
-        category, aircraft_class = currency._scope_filter(requirement, scope)
+        category, aircraft_class = currency.scope_filter(requirement, scope)
         if (category is None or entry.category == category) and (aircraft_class is None or entry.aircraft_class == aircraft_class):
             return True
     return False

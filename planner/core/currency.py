@@ -384,7 +384,8 @@ def scopes_for(requirement: r.Requirement, logbook: Logbook) -> tuple[str, ...]:
     return scopes
 
 
-def _scope_filter(requirement: r.Requirement, scope: str):
+def scope_filter(requirement: r.Requirement, scope: str) -> tuple[str | None, str | None]:
+    """The (category, class) an entry must match to count for ``requirement`` in ``scope``; None matches any."""
     if requirement.scope == r.SCOPE_PILOT:
         return None, None
     if requirement.scope == r.SCOPE_CATEGORY_CLASS:
@@ -1022,7 +1023,7 @@ class _Judged:
         self.limit_ord = index.ords[limit - 1] if limit else -_INF
         self.lower = lower
         self.covered_scopes = covered_scopes
-        cat, cls = _scope_filter(req, scope)
+        cat, cls = scope_filter(req, scope)
         self.cat, self.cls = cat, cls
 
         self.paths: list[tuple[r.Path, list[_TaskSeries]]] = []
@@ -1437,7 +1438,7 @@ def _judge_as_of(rs, req, scope, index: _Index, limit: int, day: int, scopes) ->
     """
     if not req.paths:
         return _Judged(rs, req, scope, index, limit, scopes, lower=day + 1)
-    cat = _scope_filter(req, scope)[0]
+    cat = scope_filter(req, scope)[0]
     checks = _checks_for(req, cat, index, limit)
     span = max(_span_days(p.window) for p in req.paths)
     first = index.ords[0] if index.ords else day
