@@ -18,19 +18,6 @@ from planner.core import currency
 from planner.core import rules as r
 from planner.core.logbook import Entry, Logbook, Pilot
 
-# How an amount of each task unit reads (singular, plural); hour units are given in hundredths.
-_UNIT_WORDS = {
-    r.APPROACHES: ("approach", "approaches"),
-    r.HOLDS: ("holding procedure", "holding procedures"),
-    r.COURSE_TRACKING: ("course interception and tracking", "course interception and tracking"),
-    r.LANDINGS: ("landing", "landings"),
-    r.NIGHT_FULL_STOP_LANDINGS: ("night full-stop landing", "night full-stop landings"),
-    r.PARTIAL_PANEL_APPROACHES: ("partial-panel approach", "partial-panel approaches"),
-    r.UA_NOSE_HIGH: ("nose-high recovery", "nose-high recoveries"),
-    r.UA_NOSE_LOW: ("nose-low recovery", "nose-low recoveries"),
-}
-
-
 @dataclass(frozen=True)
 class CreditNote:
     """One line of feedback.
@@ -48,14 +35,8 @@ class CreditNote:
 
 
 def _amount(unit: str, amount: int) -> str:
-    if unit in r.HOUR_UNITS:
-        hours = amount / 100
-        label = "actual instrument" if unit == r.ACTUAL_INSTRUMENT_HOURS else "instrument"
-        return f"{hours:g} h {label} time"
-    if unit == r.COURSE_TRACKING:
-        return _UNIT_WORDS[unit][0]
-    singular, plural = _UNIT_WORDS.get(unit, (unit, unit))
-    return f"{amount} {singular if amount == 1 else plural}"
+    """Hour units arrive in hundredths of an hour."""
+    return r.amount_words(unit, amount / 100 if unit in r.HOUR_UNITS else amount)
 
 
 def _is_personal(rule_set: r.RuleSet) -> bool:

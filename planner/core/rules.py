@@ -49,6 +49,31 @@ TASK_UNITS = (
     UA_NOSE_LOW,
 )
 HOUR_UNITS = (INSTRUMENT_HOURS, ACTUAL_INSTRUMENT_HOURS)
+
+# How an amount of each counted unit reads (singular, plural), in the words of 14 CFR 61.57.
+_UNIT_WORDS = {
+    APPROACHES: ("approach", "approaches"),
+    HOLDS: ("holding procedure", "holding procedures"),
+    LANDINGS: ("landing", "landings"),
+    NIGHT_FULL_STOP_LANDINGS: ("night full-stop landing", "night full-stop landings"),
+    PARTIAL_PANEL_APPROACHES: ("partial-panel approach", "partial-panel approaches"),
+    UA_NOSE_HIGH: ("nose-high recovery", "nose-high recoveries"),
+    UA_NOSE_LOW: ("nose-low recovery", "nose-low recoveries"),
+}
+
+
+def amount_words(unit: str, amount: float) -> str:
+    """An amount of a task unit as words: '2 approaches', '1 holding procedure', '1.5 h of instrument time'.
+
+    Hour units take decimal hours; course tracking reads the same whatever the amount.
+    """
+    if unit == COURSE_TRACKING:
+        return "intercepting and tracking courses"
+    if unit in HOUR_UNITS:
+        label = "actual instrument time" if unit == ACTUAL_INSTRUMENT_HOURS else "instrument time"
+        return f"{amount:g} h of {label}"
+    singular, plural = _UNIT_WORDS.get(unit, (unit, unit))
+    return f"{amount:g} {singular if amount == 1 else plural}"
 # Units that are instrument work: in an aircraft they need actual conditions, or
 # simulated conditions with a safety pilot or instructor named.
 INSTRUMENT_UNITS = (APPROACHES, HOLDS, COURSE_TRACKING, INSTRUMENT_HOURS, PARTIAL_PANEL_APPROACHES)

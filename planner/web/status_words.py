@@ -38,16 +38,6 @@ _CHECK_NAMES = {
     "casa-ipc": "an instrument proficiency check",
 }
 
-_UNIT_WORDS = {
-    r.APPROACHES: ("approach", "approaches"),
-    r.HOLDS: ("hold", "holds"),
-    r.LANDINGS: ("landing", "landings"),
-    r.NIGHT_FULL_STOP_LANDINGS: ("night full-stop landing", "night full-stop landings"),
-    r.PARTIAL_PANEL_APPROACHES: ("partial-panel approach", "partial-panel approaches"),
-    r.UA_NOSE_HIGH: ("nose-high recovery", "nose-high recoveries"),
-    r.UA_NOSE_LOW: ("nose-low recovery", "nose-low recoveries"),
-}
-
 STATE_WORDS = {currency.CURRENT: "Current", currency.GRACE: "Grace", currency.LAPSED: "Lapsed"}
 
 
@@ -77,20 +67,9 @@ def check_words(kinds: list[str] | tuple[str, ...]) -> str:
 
 
 def missing_words(missing: dict[str, Any]) -> str:
-    """The engine's ``missing`` as a phrase: '6 approaches, 1 hold, course intercepting and tracking'."""
-    parts = []
-    for unit, amount in missing.items():
-        if unit == "check":
-            parts.append(check_words(amount))
-        elif unit == r.COURSE_TRACKING:
-            parts.append("course intercepting and tracking")
-        elif unit in r.HOUR_UNITS:
-            label = "actual instrument time" if unit == r.ACTUAL_INSTRUMENT_HOURS else "instrument time"
-            parts.append(f"{amount:g} h of {label}")
-        else:
-            one, many = _UNIT_WORDS.get(unit, (unit, unit))
-            parts.append(f"{amount:g} {one if amount == 1 else many}")
-    return ", ".join(parts)
+    """The engine's ``missing`` as a phrase: '6 approaches, 1 holding procedure, intercepting and tracking courses'."""
+    return ", ".join(check_words(amount) if unit == "check" else r.amount_words(unit, amount)
+                     for unit, amount in missing.items())
 
 
 def days_between(a: date, b: date) -> int:

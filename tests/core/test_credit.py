@@ -35,7 +35,7 @@ def test_approaches_holds_and_tracking_with_a_safety_pilot_count_toward_instrume
                    approaches=(Approach("ILS", "QJRR"), Approach("RNAV (GPS)", "QPNV")))
     notes = credit.explain(entry, PILOT, RULES)
     [text] = _counts(notes, "faa-part61", "instrument")
-    assert "2 approaches" in text and "1 holding procedure" in text and "course interception and tracking" in text
+    assert "2 approaches" in text and "1 holding procedure" in text and "intercepting and tracking courses" in text
     assert "14 CFR 61.57(c)" in text
     assert _not_counted(notes) == []
 

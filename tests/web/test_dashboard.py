@@ -75,7 +75,7 @@ def test_demo_states_in_words_match_the_scenario(app: Flask, client: FlaskClient
     text = _text(client.get("/").get_data(as_text=True))
     assert "Grace: not current; regain with tasks until 2027-04-30" in text
     assert "Valid through 2026-10-31 (ended 31 days ago)" in text
-    assert "6 approaches, 1 hold, course intercepting and tracking" in text
+    assert "6 approaches, 1 holding procedure, intercepting and tracking courses" in text
     client.post("/logout", data={"csrf_token": csrf(client.get("/").get_data(as_text=True))})
     sign_in(client, "priya")
     text = _text(client.get("/").get_data(as_text=True))

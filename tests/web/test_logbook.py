@@ -554,7 +554,7 @@ def test_check_shows_what_the_entry_counts_toward_and_saves_nothing(client: Flas
     assert response.status_code == 200
     # 14 CFR 61.57(c): the two approaches, the hold and the course tracking count (a safety pilot is named).
     assert re.search(r"<strong>Counts:</strong> Instrument experience[^<]*: 2 approaches, 1 holding procedure, "
-                     r"course interception and tracking", page)
+                     r"intercepting and tracking courses", page)
     assert "Does not count:" not in page
     assert entry_count(app, pid) == before
 
