@@ -153,7 +153,7 @@ class TrainingDevice(Base):
     notes: Mapped[str] = mapped_column(Text, default="")
 
 
-_ENTRY_COUNTS = (
+ENTRY_COUNT_COLUMNS = (
     "unlogged_approaches",
     "holds",
     "landings",
@@ -190,7 +190,7 @@ class Entry(Base):
         CheckConstraint("night_full_stop_landings <= landings", name="night_within_landings"),
         CheckConstraint("NOT (aircraft_id IS NOT NULL AND device_id IS NOT NULL)", name="one_machine"),
         CheckConstraint("version >= 1", name="version_positive"),
-        *(CheckConstraint(f"{c} >= 0", name=f"{c}_nonneg") for c in _ENTRY_COUNTS + _ENTRY_HOURS),
+        *(CheckConstraint(f"{c} >= 0", name=f"{c}_nonneg") for c in ENTRY_COUNT_COLUMNS + _ENTRY_HOURS),
     )
 
     id: Mapped[intpk]

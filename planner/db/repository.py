@@ -39,15 +39,8 @@ HOURS_COLUMNS = {
     "dual_received_hours": "dual_received_hundredths",
     "solo_hours": "solo_hundredths",
 }
-COUNT_FIELDS = (
-    "unlogged_approaches",
-    "holds",
-    "landings",
-    "night_full_stop_landings",
-    "partial_panel_approaches",
-    "ua_nose_high",
-    "ua_nose_low",
-)
+# Count fields share their names with the entry columns (each checked >= 0 by the database).
+COUNT_FIELDS = models.ENTRY_COUNT_COLUMNS
 # Core text field -> longest value the column holds.
 TEXT_LIMITS = {
     "id": 64,
