@@ -51,6 +51,7 @@ __all__ = [
     "balance",
     "cancel_session",
     "move_session",
+    "pilot_calendar_for",
     "propose_sessions",
     "save_proposals",
 ]
@@ -471,3 +472,84 @@ def move_session(session: Session, session_id: int, new_start: datetime, *, expe
     row.starts_at, row.ends_at = start, end
     practice.bump(session, row, now)
     return row
+
+
+# ---------------------------------------------------------------- calendar
+
+
+def _leg_text(n: int, leg: dict[str, Any], names: dict[int, str]) -> str:
+    lines = [f"Leg {n}: {names.get(leg['pilot_flying_id'], '?')} flies, "
+             f"{names.get(leg['safety_pilot_id'], '?')} is safety pilot"]
+    lines += [f"  works toward: {x}" for x in leg.get("needs", [])]
+    for item in leg.get("items", []):
+        lines.append(f"  - {item['title']} ({item['minutes']} min)")
+        lines += [f"      {step}" for step in item.get("steps", [])]
+    b = leg.get("briefing") or {}
+    if b:
+        lines.append(f"  Briefing at {b['tas_kt']:g} kt TAS: standard rate about {b['standard_rate_bank_deg']:.0f} deg of bank, "
+                     f"radius {b['standard_rate_radius_ft']:,.0f} ft")
+        for f in b.get("banks", []):
+            lines.append(f"    {f['bank_deg']:g} deg bank: load factor {f['load_factor']:.2f}, stall speed "
+                         f"+{f['stall_speed_increase_percent']:.0f} %, radius {f['turn_radius_ft']:,.0f} ft")
+        lines += [f"    {note}" for note in b.get("notes", [])]
+    lines.append(f"  About {leg.get('total_minutes', 0)} minutes ({leg.get('minutes_basis', sessions.ESTIMATE)})")
+    return "\n".join(lines)
+
+
+def session_event(row: models.PracticeSession) -> "calendar.SessionEvent":
+    """The calendar view of a stored session."""
+    from planner.export import calendar
+
+    names = {row.pilot_flying_id: row.pilot_flying.name, row.safety_pilot_id: row.safety_pilot.name}
+    kind = "Mutual practice" if row.is_mutual else "Instrument practice"
+    people = (f"Pilot flying: {row.pilot_flying.name}; safety pilot: {row.safety_pilot.name}"
+              + ("; then seats swapped" if row.is_mutual else ""))
+    legs = row.content.get("legs", [])
+    return calendar.SessionEvent(
+        uid=row.uid,
+        sequence=row.sequence,
+        status=row.status,
+        start=row.starts_at,
+        end=row.ends_at,
+        timezone=row.timezone,
+        location=f"{row.airfield.name} ({row.airfield.ident}), aircraft {row.aircraft.registration}",
+        summary=f"{kind}: {row.pilot_flying.name} with {row.safety_pilot.name} in {row.aircraft.registration}",
+        people=people,
+        details="\n\n".join(_leg_text(n, leg, names) for n, leg in enumerate(legs, start=1)),
+        explanation=row.explanation,
+    )
+
+
+def deadlines(session: Session, person_id: int, as_of: date) -> list["calendar.Deadline"]:
+    """All-day deadlines from ``as_of`` on: currency ends (``valid_through``), regain stage ends
+    (``regain_by``), practice due (a practice target's ``valid_through``)."""
+    from planner.export import calendar
+
+    person = services.get_pilot(session, person_id)
+    report = currency.evaluate(services.load_logbook(session, person_id), services.rule_sets_for(person), as_of)
+    out = []
+    for s in report.requirements:
+        target = services.is_practice(s)
+        if s.state == currency.CURRENT and s.valid_through and s.valid_through >= as_of:
+            day, kind = s.valid_through, ("practice due" if target else "currency ends")
+            text = (f"{s.title} ({s.scope}): last day it is met is {day.isoformat()}"
+                    + (" (a practice target, not a regulation)" if target else f" ({s.citation})"))
+        elif s.state == currency.GRACE and s.regain_by and s.regain_by >= as_of:
+            day, kind = s.regain_by, "regain stage ends"
+            text = (f"{s.title} ({s.scope}): not current since {s.valid_through}; the tasks restore it through "
+                    f"{day.isoformat()}, after that only a check ({s.citation})")
+        else:
+            continue
+        title = f"{kind.capitalize()}: {s.title} ({s.scope})"
+        uid = f"deadline-{person_id}-{s.rule_set}-{s.id}-{s.scope.replace('/', '-')}-{kind.replace(' ', '-')}-{day.isoformat()}@planner"
+        out.append(calendar.Deadline(uid, day, title, text))
+    return out
+
+
+def pilot_calendar_for(session: Session, person_id: int, as_of: date, *, now: datetime) -> bytes:
+    """The pilot's calendar: every session they are in (either seat, cancelled ones included) and their deadlines."""
+    from planner.export import calendar
+
+    person = services.get_pilot(session, person_id)
+    events = [session_event(row) for row in practice.person_sessions(session, person_id)]
+    return calendar.pilot_calendar(person.name, events, deadlines(session, person_id, as_of), now=now)
