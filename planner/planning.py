@@ -50,6 +50,7 @@ __all__ = [
     "accept_session",
     "balance",
     "cancel_session",
+    "list_schools",
     "move_session",
     "pilot_calendar_for",
     "propose_sessions",
@@ -212,6 +213,11 @@ def _planned_entries(session: Session, person_id: int, rows: Sequence[models.Pra
                 day = row.starts_at.astimezone(ZoneInfo(row.timezone)).date()
                 out.append(core_gaps.planned_entry(f"session-{row.id}-{person_id}", day, leg["credits"]))
     return out
+
+
+def list_schools(session: Session) -> list[dict[str, Any]]:
+    """Every school: ``id``, ``name``, ``slug``."""
+    return [{"id": s.id, "name": s.name, "slug": s.slug} for s in practice.schools(session)]
 
 
 # ---------------------------------------------------------------- propose

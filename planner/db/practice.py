@@ -81,6 +81,11 @@ def overlapping(
     return list(session.scalars(q))
 
 
+def schools(session: Session) -> list[models.School]:
+    """Every school, by name."""
+    return list(session.scalars(select(models.School).order_by(models.School.name, models.School.id)))
+
+
 def get_session(session: Session, session_id: int) -> models.PracticeSession | None:
     return session.get(models.PracticeSession, session_id)
 
