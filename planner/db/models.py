@@ -352,3 +352,75 @@ class SignInThrottle(Base):
     failures: Mapped[int] = mapped_column(Integer, default=0)
     window_started_at: Mapped[Instant]
     locked_until: Mapped[datetime | None] = mapped_column(UTCDateTime())
+
+
+SESSION_STATUSES = ("proposed", "accepted", "cancelled", "flown")
+
+
+class PracticeSession(Base):
+    """A planned practice session under a view-limiting device, one row per session.
+
+    ``pilot_flying_id`` flies the first leg with ``safety_pilot_id`` beside them;
+    a mutual session (``is_mutual``) has a second leg with the seats swapped.
+    ``content`` holds each leg's session plan (items, briefing) as JSON.
+    ``uid`` is the calendar UID (stable for the life of the session);
+    ``sequence`` is the RFC 5545 SEQUENCE, raised on every change;
+    ``version`` refuses a change made from a stale copy.
+    Times are UTC instants; ``timezone`` is the airfield's IANA zone.
+    """
+
+    __tablename__ = "practice_sessions"
+    __table_args__ = (
+        CheckConstraint(_in("status", SESSION_STATUSES), name="status"),
+        CheckConstraint("ends_at > starts_at", name="ends_after_start"),
+        CheckConstraint("pilot_flying_id <> safety_pilot_id", name="two_people"),
+        CheckConstraint("sequence >= 0", name="sequence_nonneg"),
+        CheckConstraint("version >= 1", name="version_positive"),
+        Index("ix_practice_sessions_school_id_starts_at", "school_id", "starts_at"),
+    )
+
+    id: Mapped[intpk]
+    school_id: Mapped[int] = mapped_column(ForeignKey("schools.id"))
+    airfield_id: Mapped[int] = mapped_column(ForeignKey("airfields.id"))
+    aircraft_id: Mapped[int] = mapped_column(ForeignKey("aircraft.id"), index=True)
+    starts_at: Mapped[Instant]
+    ends_at: Mapped[Instant]
+    timezone: Mapped[str] = mapped_column(String(64))
+    pilot_flying_id: Mapped[int] = mapped_column(ForeignKey("people.id"), index=True)
+    safety_pilot_id: Mapped[int] = mapped_column(ForeignKey("people.id"), index=True)
+    is_mutual: Mapped[bool] = mapped_column(Boolean, default=False)
+    status: Mapped[str] = mapped_column(String(16), default="proposed")
+    content: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
+    explanation: Mapped[str] = mapped_column(Text, default="")
+    uid: Mapped[str] = mapped_column(String(128), unique=True)
+    sequence: Mapped[int] = mapped_column(Integer, default=0)
+    version: Mapped[int] = mapped_column(Integer)
+    created_at: Mapped[Instant]
+    updated_at: Mapped[Instant]
+
+    airfield: Mapped[Airfield] = relationship()
+    aircraft: Mapped[Aircraft] = relationship()
+    pilot_flying: Mapped[Person] = relationship(foreign_keys=[pilot_flying_id])
+    safety_pilot: Mapped[Person] = relationship(foreign_keys=[safety_pilot_id])
+
+    __mapper_args__ = {"version_id_col": version, "version_id_generator": False}
+
+    @property
+    def people_ids(self) -> tuple[int, int]:
+        return (self.pilot_flying_id, self.safety_pilot_id)
+
+
+class CalendarFeedToken(Base):
+    """A pilot's calendar subscription link: only the SHA-256 of the token is stored.
+
+    The token itself (``secrets.token_urlsafe(32)``, 256 bits) is shown once
+    when created; ``revoked_at`` ends it.
+    """
+
+    __tablename__ = "calendar_feed_tokens"
+
+    id: Mapped[intpk]
+    person_id: Mapped[int] = mapped_column(ForeignKey("people.id"), index=True)
+    token_hash: Mapped[str] = mapped_column(String(64), unique=True)  # hex SHA-256
+    created_at: Mapped[Instant]
+    revoked_at: Mapped[datetime | None] = mapped_column(UTCDateTime())

@@ -1,0 +1,561 @@
+"""Use cases for practice planning (issue 5): propose, store, accept, move and cancel sessions.
+
+Builds the scheduler's ``Problem`` from the database and the pure core:
+
+* needs: each pilot's gaps (``core.gaps.find_gaps`` with their rule sets);
+  gaps a practice session under a view-limiting device cannot close (checks,
+  actual instrument time, night landings in daylight) are kept aside as
+  ``NotPlannable`` with the reason from ``core.sessions.plan_session``;
+* people: everyone of the school holding a pilot certificate (possible safety
+  pilots included), with ratings and medical / BasicMed dates;
+* candidate slots: 2-hour slots starting on each full hour 07:00-17:00 local
+  at the school's home airfield; daylight from ``core.sun`` (sunrise to sunset,
+  sea-level horizon: the conservative choice at a high airfield); VMC
+  likelihood from the climatology of ``<observations_dir>/<ident>.csv`` if
+  that file exists (loaded once per file), otherwise unknown;
+* availability windows of people and aircraft; active sessions already in the
+  database as bookings; the who-flew-for-whom balance from accepted and flown
+  sessions (no separate counter).
+
+Like ``planner.services``, nothing here commits.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import uuid
+from collections.abc import Sequence
+from dataclasses import dataclass
+from datetime import UTC, date, datetime, time, timedelta
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+from zoneinfo import ZoneInfo
+
+from sqlalchemy.orm import Session
+
+from planner import services
+from planner.config import REPO_ROOT
+from planner.core import gaps as core_gaps
+from planner.core import rules as r
+from planner.core import currency, scheduling, sessions, sun, weather
+from planner.db import models, practice, repository
+from planner.db.practice import SessionConflict
+
+__all__ = [
+    "NotPlannable",
+    "Proposal",
+    "SessionConflict",
+    "SessionRejected",
+    "accept_session",
+    "balance",
+    "cancel_session",
+    "list_schools",
+    "move_session",
+    "pilot_calendar_for",
+    "propose_sessions",
+    "save_proposals",
+]
+
+DEFAULT_OBSERVATIONS = REPO_ROOT / "seed_demo" / "observations"
+SLOT_HOURS = 2
+FIRST_START = time(7, 0)
+LAST_END = time(19, 0)
+# Practice true airspeed by aircraft class for the briefing: product defaults (no aircraft data holds them).
+PRACTICE_TAS_KT = {"single-engine-land": 100.0, "multi-engine-land": 140.0}
+DEFAULT_TAS_KT = 100.0
+Progress = services.Progress
+
+
+class SessionRejected(ValueError):
+    """A change to a session is not possible; the message says why."""
+
+
+@dataclass(frozen=True)
+class NotPlannable:
+    """A gap a practice session cannot close (e.g. only an IPC restores it)."""
+
+    person_id: int
+    gap: core_gaps.Gap
+    reason: str
+
+
+@dataclass(frozen=True)
+class Proposal:
+    """What ``propose_sessions`` found: the scheduler's plan plus what it needs to be stored and shown.
+
+    Scheduler ids: people are ``"<name> #<id>"``, aircraft their registration.
+    ``leg_plans[(pilot flying id, safety pilot id)]`` is the content of that leg.
+    """
+
+    school_id: int
+    airfield_id: int
+    airfield_ident: str
+    timezone: str
+    start: date
+    end: date
+    plan: scheduling.SchedulePlan
+    person_ids: dict[str, int]
+    aircraft_ids: dict[str, int]
+    gaps: dict[int, tuple[core_gaps.Gap, ...]]
+    leg_plans: dict[tuple[str, str], sessions.SessionPlan]
+    not_plannable: tuple[NotPlannable, ...]
+    vmc_source: str
+
+
+# ---------------------------------------------------------------- inputs
+
+
+@lru_cache(maxsize=8)
+def _climatology(path: str, mtime: float, tz_name: str) -> weather.Climatology:
+    text = Path(path).read_text(encoding="utf-8")
+    return weather.climatology(weather.observations_from_csv(text), ZoneInfo(tz_name))
+
+
+def climatology_for(ident: str, tz_name: str, observations_dir: Path | None) -> weather.Climatology | None:
+    """The airfield's climatology from ``<observations_dir>/<ident>.csv``, or None when there is no file."""
+    if observations_dir is None:
+        return None
+    path = Path(observations_dir) / f"{ident}.csv"
+    if not path.is_file():
+        return None
+    return _climatology(str(path), path.stat().st_mtime, tz_name)
+
+
+def candidate_slots(
+    airfield: models.Airfield, start: date, end: date, climatology: weather.Climatology | None, not_before: datetime
+) -> list[scheduling.SlotInfo]:
+    """2-hour slots on each full hour from 07:00 (last ending 19:00) local, ``start``..``end`` inclusive."""
+    tz = ZoneInfo(airfield.timezone)
+    out = []
+    day = start
+    while day <= end:
+        sky = sun.sun_times(airfield.latitude, airfield.longitude, day, tz)
+        t = datetime.combine(day, FIRST_START, tz)
+        last = datetime.combine(day, LAST_END, tz)
+        while t + timedelta(hours=SLOT_HOURS) <= last:
+            s, e = t, t + timedelta(hours=SLOT_HOURS)
+            if s >= not_before:
+                vmc = weather.vmc_likelihood(s, e, tz, (), climatology).value
+                out.append(scheduling.SlotInfo(s, e, airfield.ident, sun.is_daylight(sky, s, e), vmc))
+            t += timedelta(hours=1)
+        day += timedelta(days=1)
+    return out
+
+
+def _key(person: models.Person) -> str:
+    return f"{person.name} #{person.id}"
+
+
+def _need_id(g: core_gaps.Gap) -> str:
+    return f"{g.rule_set}/{g.requirement}/{g.scope}/{g.due.isoformat()}"
+
+
+def _need_label(g: core_gaps.Gap) -> str:
+    kind = "practice target" if g.is_target else g.rule_set
+    return f"{g.requirement} ({kind}, {g.scope})"
+
+
+def _tas(aircraft: models.Aircraft | None) -> float:
+    if aircraft is None:
+        return DEFAULT_TAS_KT
+    return PRACTICE_TAS_KT.get(aircraft.aircraft_class or "", DEFAULT_TAS_KT)
+
+
+def balance(session: Session, school_id: int) -> dict[tuple[int, int], int]:
+    """Times each (safety pilot, pilot flying) pair flew together in accepted or flown sessions (both ways if mutual)."""
+    out: dict[tuple[int, int], int] = {}
+    for row in practice.school_sessions(session, school_id, statuses=practice.BALANCE):
+        pairs = [(row.safety_pilot_id, row.pilot_flying_id)]
+        if row.is_mutual:
+            pairs.append((row.pilot_flying_id, row.safety_pilot_id))
+        for pair in pairs:
+            out[pair] = out.get(pair, 0) + 1
+    return out
+
+
+def _credits(gaps: Sequence[core_gaps.Gap]) -> dict[str, float]:
+    """Unit -> amount a session must fly: per requirement the chain summed, the largest requirement taken."""
+    per: dict[tuple, float] = {}
+    for g in gaps:
+        k = (g.unit, g.rule_set, g.requirement, g.scope)
+        per[k] = per.get(k, 0) + g.count
+    out: dict[str, float] = {}
+    for (unit, *_), v in per.items():
+        out[unit] = max(out.get(unit, 0), v)
+    return out
+
+
+def _booked(logbook, rule_sets, gap: core_gaps.Gap, planned: Sequence) -> bool:  # type: ignore[no-untyped-def]
+    """Whether an overdue gap is already met by an accepted session (current on that session's day).
+
+    ``find_gaps`` judges an overdue need on ``start``, before any planned entry,
+    so it would report the need again although a session is booked for it.
+    """
+    if not gap.is_overdue or not planned:
+        return False
+    rs = next(x for x in rule_sets if x.id == gap.rule_set)
+    req = next(x for x in rs.requirements if x.id == gap.requirement)
+    only = [dataclasses.replace(rs, requirements=(req,))]
+    for entry in planned:
+        status = currency.evaluate(logbook, only, entry.date, planned).find(gap.rule_set, gap.requirement, gap.scope)
+        if status.is_current:
+            return True
+    return False
+
+
+def _planned_entries(session: Session, person_id: int, rows: Sequence[models.PracticeSession]) -> list:
+    """Accepted sessions the pilot flies, as planned (not yet flown) entries for the gap analysis."""
+    out = []
+    for row in rows:
+        for leg in row.content.get("legs", []):
+            if leg.get("pilot_flying_id") == person_id and leg.get("credits"):
+                day = row.starts_at.astimezone(ZoneInfo(row.timezone)).date()
+                out.append(core_gaps.planned_entry(f"session-{row.id}-{person_id}", day, leg["credits"]))
+    return out
+
+
+def list_schools(session: Session) -> list[dict[str, Any]]:
+    """Every school: ``id``, ``name``, ``slug``."""
+    return [{"id": s.id, "name": s.name, "slug": s.slug} for s in practice.schools(session)]
+
+
+# ---------------------------------------------------------------- propose
+
+
+def propose_sessions(
+    session: Session,
+    school_id: int,
+    start: date,
+    end: date,
+    *,
+    now: datetime,
+    observations_dir: Path | None = DEFAULT_OBSERVATIONS,
+    progress: Progress = services._quiet,
+) -> Proposal:
+    """Propose practice sessions for the school from ``start`` through ``end`` (local dates, inclusive).
+
+    ``now`` (aware) excludes slots that have begun; gaps are found as of
+    ``start``. Raises ``LookupError`` for an unknown school and
+    ``SessionRejected`` for a bad range or a school without a home airfield.
+    """
+    if now.tzinfo is None:
+        raise ValueError("now must be timezone-aware")
+    if end < start:
+        raise SessionRejected(f"--to ({end.isoformat()}) is before --from ({start.isoformat()})")
+    if (end - start).days > 92:
+        raise SessionRejected("plan at most 93 days at a time")
+    school = session.get(models.School, school_id)
+    if school is None:
+        raise LookupError(f"no school with id {school_id}")
+    airfield = school.home_airfield
+    if airfield is None:
+        raise SessionRejected(f"school {school.name} has no home airfield: slots need one")
+    tz = ZoneInfo(airfield.timezone)
+    range_start = datetime.combine(start, time(0), tz).astimezone(UTC)
+    range_end = datetime.combine(end + timedelta(days=1), time(0), tz).astimezone(UTC)
+
+    people = [p for p in repository.school_people(session, school_id) if p.certificate_level != "none"]
+    planes = [a for a in repository.school_aircraft(session, school_id)]
+    keys = {_key(p): p.id for p in people}
+    by_id = {p.id: p for p in people}
+    active = practice.school_sessions(session, school_id, start=range_start, end=range_end, statuses=practice.ACTIVE)
+    accepted = [row for row in practice.school_sessions(session, school_id, statuses=("accepted",))]
+
+    pilots: list[scheduling.PilotInfo] = []
+    all_gaps: dict[int, tuple[core_gaps.Gap, ...]] = {}
+    not_plannable: list[NotPlannable] = []
+    tas = _tas(planes[0] if planes else None)
+    for n, person in enumerate(people, start=1):
+        needs: tuple[scheduling.Need, ...] = ()
+        minutes = 120
+        if person.is_pilot:
+            progress(f"gaps {n}/{len(people)}: {person.name}")
+            logbook = services.load_logbook(session, person.id)
+            sets = services.rule_sets_for(person)
+            planned = _planned_entries(session, person.id, accepted)
+            found = tuple(
+                g for g in core_gaps.find_gaps(logbook, sets, start, end, planned=planned)
+                if not _booked(logbook, sets, g, planned)
+            )
+            content = sessions.plan_session(found, tas)
+            dropped = {g.key for g, _ in content.not_covered}
+            not_plannable += [NotPlannable(person.id, g, why) for g, why in content.not_covered]
+            usable = tuple(g for g in found if g.key not in dropped)
+            all_gaps[person.id] = usable
+            grouped: dict[str, list[core_gaps.Gap]] = {}
+            for g in usable:
+                grouped.setdefault(_need_id(g), []).append(g)
+            needs = tuple(
+                scheduling.Need(nid, gs[0].due, _need_label(gs[0]), overdue=gs[0].is_overdue) for nid, gs in grouped.items()
+            )
+            if usable:
+                minutes = min(content.total_minutes, SLOT_HOURS * 60)
+        pilots.append(scheduling.PilotInfo(
+            id=_key(person),
+            name=person.name,
+            needs=needs,
+            certificate=person.certificate_level,
+            category_classes=tuple(person.category_classes or ()),
+            medical_until=person.medical_expires,
+            basicmed_until=person.basicmed_expires,
+            session_minutes=minutes,
+        ))
+
+    progress("availability, daylight and VMC likelihood per slot")
+    plane_keys = {a.registration: a.id for a in planes}
+    availability: dict[str, list[scheduling.Window]] = {}
+    for w in practice.windows(session, person_ids=by_id, aircraft_ids=plane_keys.values(), start=range_start, end=range_end):
+        key = _key(by_id[w.person_id]) if w.person_id is not None else next(
+            reg for reg, i in plane_keys.items() if i == w.aircraft_id)
+        availability.setdefault(key, []).append(scheduling.Window(w.starts_at, w.ends_at))
+    clim = climatology_for(airfield.ident, airfield.timezone, observations_dir)
+    slots = candidate_slots(airfield, start, end, clim, now)
+    bookings = []
+    for row in active:
+        for pid in row.people_ids:
+            if pid in by_id:
+                bookings.append(scheduling.Booking(_key(by_id[pid]), row.starts_at, row.ends_at, f"session {row.id}"))
+        bookings.append(scheduling.Booking(row.aircraft.registration, row.starts_at, row.ends_at, f"session {row.id}"))
+    bal = {
+        (_key(by_id[sp]), _key(by_id[pf])): k for (sp, pf), k in balance(session, school_id).items()
+        if sp in by_id and pf in by_id
+    }
+    problem = scheduling.Problem(
+        pilots=tuple(pilots),
+        aircraft=tuple(
+            scheduling.Aircraft(a.registration, f"{a.category}/{a.aircraft_class}", a.dual_controls,
+                                a.home_airfield.ident if a.home_airfield else None)
+            for a in planes
+        ),
+        slots=tuple(slots),
+        availability={k: tuple(v) for k, v in availability.items()},
+        bookings=tuple(bookings),
+        balance=bal,
+    )
+    progress(f"scheduling {sum(1 for p in pilots if p.needs)} pilots in need over {len(slots)} slots")
+    plan = scheduling.plan(problem)
+
+    leg_plans: dict[tuple[str, str], sessions.SessionPlan] = {}
+    for ps in plan.sessions:
+        plane = next(a for a in planes if a.registration == ps.aircraft)
+        for leg in ps.legs:
+            served = set(leg.needs)
+            gs = [g for g in all_gaps[keys[leg.pilot_flying]] if _need_id(g) in served]
+            leg_plans[(leg.pilot_flying, leg.safety_pilot)] = sessions.plan_session(gs, _tas(plane))
+    if clim is None:
+        vmc_source = f"VMC likelihood unknown: no observation history for {airfield.ident}"
+    else:
+        vmc_source = f"VMC likelihood from the {airfield.ident} observation history (climatology by month and hour)"
+    return Proposal(
+        school_id=school_id, airfield_id=airfield.id, airfield_ident=airfield.ident, timezone=airfield.timezone,
+        start=start, end=end, plan=plan, person_ids=keys, aircraft_ids=plane_keys, gaps=all_gaps,
+        leg_plans=leg_plans, not_plannable=tuple(not_plannable), vmc_source=vmc_source,
+    )
+
+
+# ---------------------------------------------------------------- store and change
+
+
+def _jsonable(value: Any) -> Any:
+    if dataclasses.is_dataclass(value):
+        return {f.name: _jsonable(getattr(value, f.name)) for f in dataclasses.fields(value)}
+    if isinstance(value, (list, tuple)):
+        return [_jsonable(v) for v in value]
+    if isinstance(value, dict):
+        return {str(k): _jsonable(v) for k, v in value.items()}
+    if isinstance(value, (date, datetime)):
+        return value.isoformat()
+    return value
+
+
+def leg_content(plan: sessions.SessionPlan, gaps: Sequence[core_gaps.Gap]) -> dict[str, Any]:
+    """A leg's session plan as JSON: items, briefing, total minutes, and the credits for later gap analyses."""
+    return {
+        "items": _jsonable(plan.items),
+        "briefing": _jsonable(plan.briefing),
+        "total_minutes": plan.total_minutes,
+        "minutes_basis": plan.minutes_basis,
+        "needs": [f"{_need_label(g)}: {g.unit} {g.count:g} by {g.due.isoformat()}" for g in gaps],
+        "credits": _credits([g for g in gaps if g.unit != core_gaps.CHECK]),
+    }
+
+
+def save_proposals(session: Session, proposal: Proposal, *, now: datetime) -> list[models.PracticeSession]:
+    """Store every proposed session of ``proposal`` (status ``proposed``, sequence 0); return the rows."""
+    rows = []
+    for ps in proposal.plan.sessions:
+        first = ps.legs[0]
+        legs = []
+        for leg in ps.legs:
+            pf = proposal.person_ids[leg.pilot_flying]
+            gs = [g for g in proposal.gaps[pf] if _need_id(g) in set(leg.needs)]
+            legs.append({
+                "pilot_flying_id": pf,
+                "safety_pilot_id": proposal.person_ids[leg.safety_pilot],
+                **leg_content(proposal.leg_plans[(leg.pilot_flying, leg.safety_pilot)], gs),
+            })
+        row = models.PracticeSession(
+            school_id=proposal.school_id,
+            airfield_id=proposal.airfield_id,
+            aircraft_id=proposal.aircraft_ids[ps.aircraft],
+            starts_at=ps.slot.start.astimezone(UTC),
+            ends_at=ps.slot.end.astimezone(UTC),
+            timezone=proposal.timezone,
+            pilot_flying_id=proposal.person_ids[first.pilot_flying],
+            safety_pilot_id=proposal.person_ids[first.safety_pilot],
+            is_mutual=ps.is_mutual,
+            status="proposed",
+            content={"legs": legs, "daylight": ps.slot.daylight, "vmc": ps.slot.vmc},
+            explanation=f"Why this slot: {ps.why_slot}\nWhy this partner: {ps.why_partner}",
+            uid=f"{uuid.uuid4()}@planner",
+            sequence=0,
+            version=1,
+            created_at=now,
+            updated_at=now,
+        )
+        session.add(row)
+        rows.append(row)
+    session.flush()
+    return rows
+
+
+def _load(session: Session, session_id: int, expected_version: int | None) -> models.PracticeSession:
+    row = practice.get_session(session, session_id)
+    if row is None:
+        raise LookupError(f"no practice session with id {session_id}")
+    if expected_version is not None and row.version != expected_version:
+        raise SessionConflict(
+            f"practice session {session_id} was changed elsewhere (now version {row.version}, "
+            f"you saw version {expected_version}); reload it"
+        )
+    return row
+
+
+def accept_session(session: Session, session_id: int, *, expected_version: int | None = None,
+                   now: datetime) -> models.PracticeSession:
+    """Accept a proposed session (it then counts as a booking and in the balance)."""
+    row = _load(session, session_id, expected_version)
+    if row.status != "proposed":
+        raise SessionRejected(f"practice session {session_id} is {row.status}; only a proposed one can be accepted")
+    row.status = "accepted"
+    practice.bump(session, row, now)
+    return row
+
+
+def cancel_session(session: Session, session_id: int, *, expected_version: int | None = None,
+                   now: datetime) -> models.PracticeSession:
+    """Cancel a proposed or accepted session; it stays (calendars show it as cancelled)."""
+    row = _load(session, session_id, expected_version)
+    if row.status not in practice.ACTIVE:
+        raise SessionRejected(f"practice session {session_id} is {row.status}; it cannot be cancelled")
+    row.status = "cancelled"
+    practice.bump(session, row, now)
+    return row
+
+
+def move_session(session: Session, session_id: int, new_start: datetime, *, expected_version: int | None = None,
+                 now: datetime) -> models.PracticeSession:
+    """Move a proposed or accepted session to ``new_start`` (aware), keeping its length.
+
+    Refused when either person or the aircraft is in another active session then.
+    """
+    if new_start.tzinfo is None:
+        raise SessionRejected("new start must be timezone-aware")
+    row = _load(session, session_id, expected_version)
+    if row.status not in practice.ACTIVE:
+        raise SessionRejected(f"practice session {session_id} is {row.status}; it cannot be moved")
+    length = row.ends_at - row.starts_at
+    start, end = new_start.astimezone(UTC), new_start.astimezone(UTC) + length
+    clash = practice.overlapping(
+        session, start=start, end=end, person_ids=row.people_ids, aircraft_id=row.aircraft_id, exclude_id=row.id
+    )
+    if clash:
+        raise SessionRejected(
+            f"practice session {session_id} cannot move to {new_start.isoformat(timespec='minutes')}: "
+            f"session {clash[0].id} already holds a person or the aircraft then"
+        )
+    row.starts_at, row.ends_at = start, end
+    practice.bump(session, row, now)
+    return row
+
+
+# ---------------------------------------------------------------- calendar
+
+
+def _leg_text(n: int, leg: dict[str, Any], names: dict[int, str]) -> str:
+    lines = [f"Leg {n}: {names.get(leg['pilot_flying_id'], '?')} flies, "
+             f"{names.get(leg['safety_pilot_id'], '?')} is safety pilot"]
+    lines += [f"  works toward: {x}" for x in leg.get("needs", [])]
+    for item in leg.get("items", []):
+        lines.append(f"  - {item['title']} ({item['minutes']} min)")
+        lines += [f"      {step}" for step in item.get("steps", [])]
+    b = leg.get("briefing") or {}
+    if b:
+        lines.append(f"  Briefing at {b['tas_kt']:g} kt TAS: standard rate about {b['standard_rate_bank_deg']:.0f} deg of bank, "
+                     f"radius {b['standard_rate_radius_ft']:,.0f} ft")
+        for f in b.get("banks", []):
+            lines.append(f"    {f['bank_deg']:g} deg bank: load factor {f['load_factor']:.2f}, stall speed "
+                         f"+{f['stall_speed_increase_percent']:.0f} %, radius {f['turn_radius_ft']:,.0f} ft")
+        lines += [f"    {note}" for note in b.get("notes", [])]
+    lines.append(f"  About {leg.get('total_minutes', 0)} minutes ({leg.get('minutes_basis', sessions.ESTIMATE)})")
+    return "\n".join(lines)
+
+
+def session_event(row: models.PracticeSession) -> "calendar.SessionEvent":
+    """The calendar view of a stored session."""
+    from planner.export import calendar
+
+    names = {row.pilot_flying_id: row.pilot_flying.name, row.safety_pilot_id: row.safety_pilot.name}
+    kind = "Mutual practice" if row.is_mutual else "Instrument practice"
+    people = (f"Pilot flying: {row.pilot_flying.name}; safety pilot: {row.safety_pilot.name}"
+              + ("; then seats swapped" if row.is_mutual else ""))
+    legs = row.content.get("legs", [])
+    return calendar.SessionEvent(
+        uid=row.uid,
+        sequence=row.sequence,
+        status=row.status,
+        start=row.starts_at,
+        end=row.ends_at,
+        timezone=row.timezone,
+        location=f"{row.airfield.name} ({row.airfield.ident}), aircraft {row.aircraft.registration}",
+        summary=f"{kind}: {row.pilot_flying.name} with {row.safety_pilot.name} in {row.aircraft.registration}",
+        people=people,
+        details="\n\n".join(_leg_text(n, leg, names) for n, leg in enumerate(legs, start=1)),
+        explanation=row.explanation,
+    )
+
+
+def deadlines(session: Session, person_id: int, as_of: date) -> list["calendar.Deadline"]:
+    """All-day deadlines from ``as_of`` on: currency ends (``valid_through``), regain stage ends
+    (``regain_by``), practice due (a practice target's ``valid_through``)."""
+    from planner.export import calendar
+
+    person = services.get_pilot(session, person_id)
+    report = currency.evaluate(services.load_logbook(session, person_id), services.rule_sets_for(person), as_of)
+    out = []
+    for s in report.requirements:
+        target = services.is_practice(s)
+        if s.state == currency.CURRENT and s.valid_through and s.valid_through >= as_of:
+            day, kind = s.valid_through, ("practice due" if target else "currency ends")
+            text = (f"{s.title} ({s.scope}): last day it is met is {day.isoformat()}"
+                    + (" (a practice target, not a regulation)" if target else f" ({s.citation})"))
+        elif s.state == currency.GRACE and s.regain_by and s.regain_by >= as_of:
+            day, kind = s.regain_by, "regain stage ends"
+            text = (f"{s.title} ({s.scope}): not current since {s.valid_through}; the tasks restore it through "
+                    f"{day.isoformat()}, after that only a check ({s.citation})")
+        else:
+            continue
+        title = f"{kind.capitalize()}: {s.title} ({s.scope})"
+        uid = f"deadline-{person_id}-{s.rule_set}-{s.id}-{s.scope.replace('/', '-')}-{kind.replace(' ', '-')}-{day.isoformat()}@planner"
+        out.append(calendar.Deadline(uid, day, title, text))
+    return out
+
+
+def pilot_calendar_for(session: Session, person_id: int, as_of: date, *, now: datetime) -> bytes:
+    """The pilot's calendar: every session they are in (either seat, cancelled ones included) and their deadlines."""
+    from planner.export import calendar
+
+    person = services.get_pilot(session, person_id)
+    events = [session_event(row) for row in practice.person_sessions(session, person_id)]
+    return calendar.pilot_calendar(person.name, events, deadlines(session, person_id, as_of), now=now)

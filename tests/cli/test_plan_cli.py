@@ -1,0 +1,84 @@
+"""`planner schools`, `planner plan` and `planner export-ics`, run in-process on the real demo (seed_demo/)."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+import vobject
+
+from planner import CAUTION
+from planner.cli import main
+
+FROM, TO, NOW = "2026-12-01", "2026-12-28", "2026-12-01T06:00Z"
+
+
+@pytest.fixture
+def demo(tmp_path: Path, monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str]) -> dict:
+    monkeypatch.setenv("PLANNER_DATABASE_URL", f"sqlite:///{tmp_path / 'demo.sqlite3'}")
+    assert main(["init"]) == 0 and main(["demo"]) == 0
+    capsys.readouterr()
+    assert main(["schools", "--json"]) == 0
+    (school,) = json.loads(capsys.readouterr().out)
+    assert school["slug"] == "juniper-ridge" and school["name"] == "Juniper Ridge Flight Academy"
+    assert main(["pilots", "--json"]) == 0
+    pilots = {p["name"].split()[0]: p["id"] for p in json.loads(capsys.readouterr().out)}
+    return {"school": school["id"], "pilots": pilots}
+
+
+def _plan(capsys, demo, *extra: str) -> dict:  # type: ignore[no-untyped-def]
+    assert main(["plan", "--school", str(demo["school"]), "--from", FROM, "--to", TO, "--now", NOW, "--json", *extra]) == 0
+    return json.loads(capsys.readouterr().out)
+
+
+def test_plan_json_covers_every_pilot_in_need_and_explains(demo, capsys) -> None:  # type: ignore[no-untyped-def]
+    out = _plan(capsys, demo)
+    assert out["caution"] == CAUTION and out["saved"] is False
+    assert out["sessions"] and all(s["why_slot"] and s["why_partner"] for s in out["sessions"])
+    flying = {leg["pilot_flying"]["id"] for s in out["sessions"] for leg in s["legs"]}
+    unmet = {u["pilot"]["id"] for u in out["unmet"]}
+    # Dev (medical expired 2026-10-31) and Tobias (nobody free in his hours) get reasons, the others sessions.
+    assert demo["pilots"]["Dev"] in unmet and demo["pilots"]["Dev"] not in flying
+    assert {demo["pilots"][n] for n in ("Priya", "Mara", "Rafael")} <= flying
+    assert all(u["reason"] for u in out["unmet"])
+    assert demo["pilots"]["Dev"] not in {leg["safety_pilot"]["id"] for s in out["sessions"] for leg in s["legs"]}
+    assert any(n["unit"] == "check" and n["pilot_id"] == demo["pilots"]["Priya"] for n in out["not_plannable"])
+
+
+def test_plan_table_ends_with_the_caution_and_reports_progress_on_stderr(demo, capsys) -> None:  # type: ignore[no-untyped-def]
+    assert main(["plan", "--school", str(demo["school"]), "--from", FROM, "--to", TO, "--now", NOW]) == 0
+    cap = capsys.readouterr()
+    assert cap.out.rstrip().endswith(CAUTION)
+    assert "why this slot:" in cap.out and "Needs no session meets:" in cap.out and "--save" in cap.out
+    assert "scheduling" in cap.err and "gaps" in cap.err
+
+
+def test_plan_save_stores_sessions_and_export_ics_writes_them(demo, capsys, tmp_path) -> None:  # type: ignore[no-untyped-def]
+    out = _plan(capsys, demo, "--save")
+    assert out["saved"] and all(isinstance(s["id"], int) for s in out["sessions"])
+    mara = demo["pilots"]["Mara"]
+    target = tmp_path / "mara.ics"
+    assert main(["export-ics", "--pilot", str(mara), "--as-of", FROM, "-o", str(target)]) == 0
+    cal = vobject.readOne(target.read_text(encoding="utf-8"))  # vobject: an independent parser
+    timed = [ev for ev in cal.vevent_list if hasattr(ev.dtstart.value, "hour")]
+    mine = [s for s in out["sessions"] if any(mara in (l["pilot_flying"]["id"], l["safety_pilot"]["id"]) for l in s["legs"])]
+    assert len(timed) == len(mine) >= 1
+    assert CAUTION in capsys.readouterr().err
+
+
+def test_export_ics_to_stdout_is_a_calendar(demo, capsys) -> None:  # type: ignore[no-untyped-def]
+    assert main(["export-ics", "--pilot", str(demo["pilots"]["Signe"]), "--as-of", FROM]) == 0
+    out = capsys.readouterr().out
+    assert out.startswith("BEGIN:VCALENDAR") and "END:VCALENDAR" in out
+
+
+def test_bad_input_gets_a_message_and_an_exit_status(demo, capsys) -> None:  # type: ignore[no-untyped-def]
+    assert main(["plan", "--school", "99", "--from", FROM, "--to", TO]) == 1
+    assert "no school with id 99" in capsys.readouterr().err
+    assert main(["plan", "--school", str(demo["school"]), "--from", TO, "--to", FROM]) == 2
+    assert "before" in capsys.readouterr().err
+    assert main(["export-ics", "--pilot", "999"]) == 1
+    assert "no pilot with id 999" in capsys.readouterr().err
+    with pytest.raises(SystemExit):
+        main(["plan", "--school", "1", "--from", "2026-13-01", "--to", TO])
