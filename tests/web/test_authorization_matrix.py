@@ -83,6 +83,12 @@ MATRIX: dict[tuple[str, str], tuple[int, ...]] = {
     ("admin.create_person", "POST"): (302, 404, 404, 404, 404, 302),
     ("admin.edit_person", "GET"): (302, 404, 404, 404, 404, 200),
     ("admin.edit_person", "POST"): (302, 404, 404, 404, 404, 302),
+    # Calendars: the feed needs no sign-in (an unknown token answers 404 to everyone); the download follows reading.
+    ("calendar.feed", "GET"): (404, 404, 404, 404, 404, 404),
+    ("calendar.download", "GET"): (302, 200, 404, 200, 404, 200),
+    # The subscription link: each pilot's own (accounts without a logbook have none).
+    ("settings.create_feed", "POST"): (302, 200, 200, 404, 404, 404),
+    ("settings.revoke_feed", "POST"): (302, 302, 302, 404, 404, 404),
 }
 
 NEW_PERSON = "nadia.quell@juniper-ridge.example"  # the email in person_form()
