@@ -223,6 +223,11 @@ def _planned_entries(session: Session, person_id: int, rows: Sequence[models.Pra
     return out
 
 
+def need_labels(proposal: Proposal) -> dict[str, str]:
+    """Scheduler need id -> words, for showing unmet needs."""
+    return {_need_id(g): _need_label(g) for gaps in proposal.gaps.values() for g in gaps}
+
+
 def list_schools(session: Session) -> list[dict[str, Any]]:
     """Every school: ``id``, ``name``, ``slug``."""
     return [{"id": s.id, "name": s.name, "slug": s.slug} for s in practice.schools(session)]

@@ -94,12 +94,12 @@ def create_app(settings: Settings | None = None, **overrides: Any) -> Flask:
     login.login_view = "auth.login"
     login.login_message = "Please sign in to continue."
 
-    from planner.web import admin, auth, dashboard, logbook, school
+    from planner.web import admin, auth, dashboard, logbook, plan, school
     from planner.web import calendar as calendar_area
     from planner.web import settings as settings_area
 
     login.user_loader(auth.load_account)
-    for area in (auth, dashboard, logbook, school, settings_area, admin, calendar_area):
+    for area in (auth, dashboard, logbook, school, settings_area, admin, calendar_area, plan):
         app.register_blueprint(area.bp)
 
     @app.context_processor

@@ -51,7 +51,7 @@ def stored_sessions(app: Flask) -> list[dict]:
         school = repository.find_by(db_session(), models.School, slug="juniper-ridge")
         return [
             {"id": r.id, "uid": r.uid, "status": r.status, "version": r.version, "sequence": r.sequence,
-             "pf": r.pilot_flying.name, "sp": r.safety_pilot.name, "people": r.people_ids, "mutual": r.is_mutual,
+             "pf": r.pilot_flying.name, "sp": r.safety_pilot.name, "aircraft": r.aircraft.registration, "people": r.people_ids, "mutual": r.is_mutual,
              "starts_at": r.starts_at, "ends_at": r.ends_at}
             for r in planning.school_sessions(db_session(), school.id, since=datetime(2000, 1, 1, tzinfo=UTC))
         ]
