@@ -23,6 +23,8 @@ Like ``planner.services``, nothing here commits.
 from __future__ import annotations
 
 import dataclasses
+import hashlib
+import secrets
 import uuid
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -39,6 +41,7 @@ from planner.config import REPO_ROOT
 from planner.core import gaps as core_gaps
 from planner.core import rules as r
 from planner.core import currency, scheduling, sessions, sun, weather
+from planner.core import logbook as core_logbook
 from planner.db import models, practice, repository
 from planner.db.practice import SessionConflict
 
@@ -50,6 +53,11 @@ __all__ = [
     "accept_session",
     "balance",
     "cancel_session",
+    "create_feed_token",
+    "draft_entry",
+    "feed_person",
+    "mark_flown",
+    "revoke_feed_tokens",
     "list_schools",
     "move_session",
     "pilot_calendar_for",
@@ -213,6 +221,11 @@ def _planned_entries(session: Session, person_id: int, rows: Sequence[models.Pra
                 day = row.starts_at.astimezone(ZoneInfo(row.timezone)).date()
                 out.append(core_gaps.planned_entry(f"session-{row.id}-{person_id}", day, leg["credits"]))
     return out
+
+
+def need_labels(proposal: Proposal) -> dict[str, str]:
+    """Scheduler need id -> words, for showing unmet needs."""
+    return {_need_id(g): _need_label(g) for gaps in proposal.gaps.values() for g in gaps}
 
 
 def list_schools(session: Session) -> list[dict[str, Any]]:
@@ -559,3 +572,167 @@ def pilot_calendar_for(session: Session, person_id: int, as_of: date, *, now: da
     person = services.get_pilot(session, person_id)
     events = [session_event(row) for row in practice.person_sessions(session, person_id)]
     return calendar.pilot_calendar(person.name, events, deadlines(session, person_id, as_of), now=now)
+
+
+# ---------------------------------------------------------------- calendar feed tokens
+
+FEED_TOKEN_BYTES = 32  # secrets.token_urlsafe(32): 256 bits of randomness
+
+
+def _token_hash(token: str) -> str:
+    return hashlib.sha256(token.encode("utf-8")).hexdigest()
+
+
+def create_feed_token(session: Session, person_id: int, *, now: datetime) -> str:
+    """A new subscription token for the pilot; returns the raw token (shown once), stores only its SHA-256.
+
+    Earlier active tokens of the pilot are revoked: one live link per pilot.
+    """
+    services.get_pilot(session, person_id)
+    revoke_feed_tokens(session, person_id, now=now)
+    token = secrets.token_urlsafe(FEED_TOKEN_BYTES)
+    session.add(models.CalendarFeedToken(person_id=person_id, token_hash=_token_hash(token), created_at=now))
+    session.flush()
+    return token
+
+
+def revoke_feed_tokens(session: Session, person_id: int, *, now: datetime) -> int:
+    """Revoke every active subscription token of the pilot; returns how many were active."""
+    rows = practice.active_feed_tokens(session, person_id)
+    for row in rows:
+        row.revoked_at = now
+    session.flush()
+    return len(rows)
+
+
+def feed_status(session: Session, person_id: int) -> models.CalendarFeedToken | None:
+    """The pilot's active subscription token row (its hash only), if any."""
+    rows = practice.active_feed_tokens(session, person_id)
+    return rows[-1] if rows else None
+
+
+def feed_person(session: Session, token: str) -> int | None:
+    """The id of the pilot whose active token ``token`` is, or None (unknown, revoked or malformed)."""
+    if not token or len(token) > 128:
+        return None
+    row = practice.feed_token_by_hash(session, _token_hash(token))
+    if row is None or row.revoked_at is not None:
+        return None
+    return row.person_id
+
+
+# ---------------------------------------------------------------- lists for the pages
+
+
+def school_sessions(session: Session, school_id: int, *, since: datetime) -> list[models.PracticeSession]:
+    """The school's sessions that end after ``since`` (any status), by start."""
+    return practice.school_sessions(session, school_id, start=since)
+
+
+def person_sessions(session: Session, person_id: int, *, since: datetime) -> list[models.PracticeSession]:
+    """Sessions the person is in (either seat) that end after ``since``, any status, by start."""
+    return [row for row in practice.person_sessions(session, person_id) if row.ends_at > since]
+
+
+def get_session(session: Session, session_id: int) -> models.PracticeSession | None:
+    return practice.get_session(session, session_id)
+
+
+# ---------------------------------------------------------------- after the flight
+
+
+def mark_flown(session: Session, session_id: int, *, expected_version: int | None = None,
+               now: datetime) -> models.PracticeSession:
+    """Record that an accepted session was flown (it keeps counting in the who-flew-for-whom balance)."""
+    row = _load(session, session_id, expected_version)
+    if row.status != "accepted":
+        raise SessionRejected(f"practice session {session_id} is {row.status}; only an accepted one can be marked flown")
+    if row.starts_at > now:
+        raise SessionRejected(f"practice session {session_id} has not begun yet; mark it flown after the flight")
+    row.status = "flown"
+    practice.bump(session, row, now)
+    return row
+
+
+# Approach types for the draft: the plan names the kind, the pilot corrects it to what was flown.
+DRAFT_PRECISION_TYPE = "ILS"
+DRAFT_NON_PRECISION_TYPE = "RNAV (GPS)"
+
+
+def _hours(minutes: int) -> float:
+    return round(minutes / 60, 1)
+
+
+def draft_entry(session: Session, session_id: int, person_id: int) -> core_logbook.Entry:
+    """A draft logbook entry for ``person_id``'s seat(s) in a flown session, from the session's content.
+
+    Pilot flying: the planned approaches (type from the plan's precision /
+    non-precision kind, at the session's airfield), holds, course tracking,
+    partial-panel approaches, unusual-attitude recoveries, simulated
+    instrument time (the instrument items' minutes), the safety pilot's name.
+    Safety pilot: the flight time. A mutual session gives one entry with both
+    seats. Times are the plan's estimates: the person reviews and corrects
+    before saving. Raises ``LookupError`` when the person is not in the session
+    and ``SessionRejected`` when it is not flown.
+    """
+    row = practice.get_session(session, session_id)
+    if row is None or person_id not in row.people_ids:
+        raise LookupError(f"no practice session {session_id} with person {person_id}")
+    if row.status != "flown":
+        raise SessionRejected(f"practice session {session_id} is {row.status}; mark it flown first")
+    names = {row.pilot_flying_id: row.pilot_flying.name, row.safety_pilot_id: row.safety_pilot.name}
+    legs = row.content.get("legs", [])
+    approaches: list[core_logbook.Approach] = []
+    holds = pp = nh = nl = 0
+    course = False
+    simulated_minutes = total_minutes = 0
+    flew_with: list[str] = []
+    safety_for: list[str] = []
+    for leg in legs:
+        total_minutes += int(leg.get("total_minutes", 0))
+        if leg.get("pilot_flying_id") == person_id:
+            flew_with.append(names.get(leg.get("safety_pilot_id"), "?"))
+            for item in leg.get("items", []):
+                kind, title = item.get("kind"), item.get("title", "")
+                if kind not in ("depart", "return", "landing"):
+                    simulated_minutes += int(item.get("minutes", 0))
+                if kind == "approach":
+                    precision = title.split(": ", 1)[-1].startswith("precision")
+                    approaches.append(core_logbook.Approach(
+                        type=DRAFT_PRECISION_TYPE if precision else DRAFT_NON_PRECISION_TYPE,
+                        airfield=row.airfield.ident, conditions="simulated"))
+                    pp += "partial panel" in title
+                elif kind == "hold":
+                    holds += 1
+                elif kind == "course":
+                    course = True
+                elif kind == "unusual-attitude":
+                    nh += "nose high" in title
+                    nl += "nose low" in title
+        elif leg.get("safety_pilot_id") == person_id:
+            safety_for.append(names.get(leg.get("pilot_flying_id"), "?"))
+    local = row.starts_at.astimezone(ZoneInfo(row.timezone))
+    remarks = [f"Practice session {row.id} (draft from the plan: correct approach types, runways and times to what was flown)."]
+    if safety_for:
+        remarks.append(f"Safety pilot for {', '.join(safety_for)}.")
+    plane = row.aircraft
+    return core_logbook.Entry(
+        id="draft",
+        date=local.date(),
+        device="aircraft",
+        category=plane.category,
+        aircraft_class=plane.aircraft_class,
+        conditions="simulated" if flew_with else None,
+        approaches=tuple(approaches),
+        holds=holds,
+        course_tracking=course,
+        instrument_simulated_hours=_hours(simulated_minutes),
+        partial_panel_approaches=pp,
+        ua_nose_high=nh,
+        ua_nose_low=nl,
+        safety_pilot=", ".join(flew_with) or None,
+        remarks=" ".join(remarks),
+        aircraft=plane.registration,
+        route=f"{row.airfield.ident}-{row.airfield.ident}",
+        total_hours=_hours(total_minutes),
+    )

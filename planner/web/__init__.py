@@ -7,7 +7,7 @@ CSRF token on every form. Blueprints live in ``planner.web.<area>``.
 
 from __future__ import annotations
 
-from datetime import date, datetime
+from datetime import UTC, date, datetime, time
 from typing import Any
 from zoneinfo import ZoneInfo
 
@@ -33,7 +33,7 @@ def db_session() -> Session:
 def today(timezone: str | None) -> date:
     """Today's date in ``timezone`` (IANA name; UTC when None).
 
-    The only place the web app reads the clock. Tests and demos pin it with
+    With ``now()``, the only places the web app reads the clock. Tests and demos pin it with
     the ``PLANNER_TODAY`` config key (an ISO date).
     """
     from flask import current_app
@@ -42,6 +42,20 @@ def today(timezone: str | None) -> date:
     if pinned:
         return date.fromisoformat(str(pinned))
     return datetime.now(ZoneInfo(timezone or "UTC")).date()
+
+
+def now() -> datetime:
+    """The current instant (aware, UTC), for stamps and "has it begun" checks.
+
+    With ``PLANNER_TODAY`` pinned it is 00:00 UTC of that date, so that pages
+    and tests that pin the day see a fixed instant too.
+    """
+    from flask import current_app
+
+    pinned = current_app.config.get("PLANNER_TODAY")
+    if pinned:
+        return datetime.combine(date.fromisoformat(str(pinned)), time(0), UTC)
+    return datetime.now(UTC)
 
 
 def create_app(settings: Settings | None = None, **overrides: Any) -> Flask:
@@ -80,11 +94,12 @@ def create_app(settings: Settings | None = None, **overrides: Any) -> Flask:
     login.login_view = "auth.login"
     login.login_message = "Please sign in to continue."
 
-    from planner.web import admin, auth, dashboard, logbook, school
+    from planner.web import admin, auth, dashboard, logbook, plan, school
+    from planner.web import calendar as calendar_area
     from planner.web import settings as settings_area
 
     login.user_loader(auth.load_account)
-    for area in (auth, dashboard, logbook, school, settings_area, admin):
+    for area in (auth, dashboard, logbook, school, settings_area, admin, calendar_area, plan):
         app.register_blueprint(area.bp)
 
     @app.context_processor

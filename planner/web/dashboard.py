@@ -5,6 +5,9 @@ from __future__ import annotations
 from datetime import date
 from typing import Any
 
+from datetime import timedelta
+from zoneinfo import ZoneInfo
+
 from dateutil.relativedelta import relativedelta
 from flask import Blueprint, redirect, render_template, url_for
 from flask_login import current_user, login_required
@@ -24,11 +27,11 @@ from wtforms import (
 from wtforms.fields.choices import SelectChoice
 from wtforms.validators import InputRequired, Length, NumberRange, Optional, ValidationError
 
-from planner import services
+from planner import planning, services
 from planner.core import currency
 from planner.core.logbook import Approach, Entry
 from planner.db import models
-from planner.web import chart, db_session, today
+from planner.web import access, chart, db_session, now, today
 from planner.web import status_words as words
 from planner.web.access import pilot_or_404
 
@@ -248,6 +251,30 @@ def _move(move: currency.RequirementMove, practice: bool) -> dict[str, Any]:
     }
 
 
+RECENT_SESSION_DAYS = 14
+
+
+def _sessions(person: models.Person) -> list[dict[str, Any]]:
+    """The pilot's practice sessions from two weeks ago on (cancelled ones only while still ahead)."""
+    instant = now()
+    out = []
+    for row in planning.person_sessions(db_session(), person.id, since=instant - timedelta(days=RECENT_SESSION_DAYS)):
+        if row.status == "cancelled" and row.ends_at <= instant:
+            continue
+        tz = ZoneInfo(row.timezone)
+        partner = row.safety_pilot if row.pilot_flying_id == person.id else row.pilot_flying
+        seat = "flying" if row.pilot_flying_id == person.id else "safety pilot"
+        if row.is_mutual:
+            seat = "flying and safety pilot (seats swapped)"
+        out.append({
+            "id": row.id, "version": row.version, "status": row.status,
+            "start": row.starts_at.astimezone(tz), "end": row.ends_at.astimezone(tz), "timezone": row.timezone,
+            "aircraft": row.aircraft.registration, "airfield": row.airfield.ident, "partner": partner.name,
+            "seat": seat, "started": row.starts_at <= instant,
+        })
+    return out
+
+
 def _page(
     person: models.Person,
     *,
@@ -297,6 +324,8 @@ def _page(
             planned=planned or [],
             max_planned=MAX_PLANNED,
             action=url_for("dashboard.what_if", pilot_id=person.id),
+            sessions=_sessions(person),
+            can_edit=access.can_edit(person),
         ),
         status,
     )

@@ -14,7 +14,7 @@ from typing import Any
 from flask import Blueprint, abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 
-from planner import services
+from planner import planning, services
 from planner.core import logbook as core
 from planner.db import models, repository
 from planner.export import interchange
@@ -266,6 +266,29 @@ def create(pilot_id: int):  # type: ignore[no-untyped-def]
         return _render_form(form, pilot, row=None, status=422)
     flash(f"Entry of {built.entry.date.isoformat()} saved.")
     return redirect(url_for("logbook.show", pilot_id=pilot.id, ref=built.entry.id))
+
+
+@bp.route("/pilots/<int:pilot_id>/logbook/from-session")
+@login_required
+def from_session(pilot_id: int):  # type: ignore[no-untyped-def]
+    """The entry form prefilled from a flown practice session (``?session=<id>``); saving goes through ``create``."""
+    pilot = _pilot(pilot_id, edit=True)
+    try:
+        session_id = int(request.args.get("session", ""))
+    except ValueError:
+        abort(404)
+    if not 0 < session_id <= access.MAX_ID:
+        abort(404)
+    try:
+        entry = planning.draft_entry(db_session(), session_id, pilot.id)
+    except LookupError:
+        abort(404)
+    except planning.SessionRejected as exc:
+        flash(f"No draft: {exc}.")
+        return redirect(url_for("logbook.index", pilot_id=pilot.id))
+    form = forms.EntryForm(data=forms.entry_form_data(entry))
+    flash(f"Draft from practice session {session_id}: check every field against what was flown, then save.")
+    return _render_form(form, pilot, row=None, notes=_credit_notes(entry, pilot))
 
 
 def _changes(older: dict[str, Any], newer: dict[str, Any]) -> list[str]:

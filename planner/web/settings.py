@@ -5,7 +5,7 @@ from __future__ import annotations
 from decimal import Decimal
 from typing import Any
 
-from flask import Blueprint, flash, redirect, render_template, url_for
+from flask import Blueprint, abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
 from wtforms import DecimalField, IntegerField, SelectField, SelectMultipleField, StringField, SubmitField
@@ -13,11 +13,11 @@ from wtforms.fields.choices import SelectChoice
 from wtforms.validators import InputRequired, Length, NumberRange, Optional, ValidationError
 from wtforms.widgets import CheckboxInput, ListWidget
 
-from planner import rulesets, services
+from planner import planning, rulesets, services
 from planner.core import rules as r
 from planner.db import models, repository
 from planner.rulesets import overrides
-from planner.web import db_session
+from planner.web import db_session, now
 from planner.web import status_words as words
 from planner.web.access import pilot_or_404
 
@@ -106,10 +106,42 @@ def pilot(pilot_id: int):  # type: ignore[no-untyped-def]
     return _edit(pilot_or_404(pilot_id))
 
 
-def _edit(person: models.Person):  # type: ignore[no-untyped-def]
+@bp.route("/settings/calendar-link", methods=["POST"])
+@login_required
+def create_feed():  # type: ignore[no-untyped-def]
+    """A new calendar subscription link for the signed-in pilot (earlier links stop working); shown once."""
+    if not current_user.is_pilot:
+        abort(404)
+    session = db_session()
+    token = planning.create_feed_token(session, current_user.id, now=now())
+    session.commit()
+    url = url_for("calendar.feed", token=token, _external=True, _scheme="https")
+    return _edit(pilot_or_404(current_user.id), feed_url=url)
+
+
+@bp.route("/settings/calendar-link/revoke", methods=["POST"])
+@login_required
+def revoke_feed():  # type: ignore[no-untyped-def]
+    """Stop the signed-in pilot's calendar subscription link."""
+    if not current_user.is_pilot:
+        abort(404)
+    session = db_session()
+    count = planning.revoke_feed_tokens(session, current_user.id, now=now())
+    session.commit()
+    flash("Calendar link revoked: calendars subscribed to it stop updating." if count else "There was no active calendar link.")
+    return redirect(url_for("settings.index"))
+
+
+def webcal(url: str) -> str:
+    """The ``webcal://`` form of an https feed URL (calendar apps open it as a subscription)."""
+    return "webcal://" + url.split("://", 1)[1]
+
+
+def _edit(person: models.Person, *, feed_url: str | None = None):  # type: ignore[no-untyped-def]
+    """The settings page; with ``feed_url`` (just created) it is only shown, never treated as a submission."""
     session = db_session()
     targets = _targets()
-    form = _form_class(targets)()
+    form = _form_class(targets)(formdata=None) if feed_url else _form_class(targets)()
     form.rule_sets.choices = [
         SelectChoice(name, f"{services.builtin_rule_set(name).title}") for name in rulesets.builtin_names()
     ]
@@ -119,7 +151,7 @@ def _edit(person: models.Person):  # type: ignore[no-untyped-def]
     own = person.id == current_user.id
     action = url_for("settings.index") if own else url_for("settings.pilot", pilot_id=person.id)
     status = 200
-    if form.is_submitted():
+    if feed_url is None and form.is_submitted():
         if form.validate():
             chosen: dict[str, Any] = {}
             for t in targets:
@@ -176,6 +208,8 @@ def _edit(person: models.Person):  # type: ignore[no-untyped-def]
         render_template(
             "settings/edit.html", form=form, person=person, own=own, targets=targets, action=action,
             scope_words=words.scope_words,
+            feed=planning.feed_status(session, person.id) if own else None,
+            feed_url=feed_url, webcal_url=webcal(feed_url) if feed_url else None,
         ),
         status,
     )

@@ -83,6 +83,23 @@ MATRIX: dict[tuple[str, str], tuple[int, ...]] = {
     ("admin.create_person", "POST"): (302, 404, 404, 404, 404, 302),
     ("admin.edit_person", "GET"): (302, 404, 404, 404, 404, 200),
     ("admin.edit_person", "POST"): (302, 404, 404, 404, 404, 302),
+    # Calendars: the feed needs no sign-in (an unknown token answers 404 to everyone); the download follows reading.
+    ("calendar.feed", "GET"): (404, 404, 404, 404, 404, 404),
+    ("calendar.download", "GET"): (302, 200, 404, 200, 404, 200),
+    # The subscription link: each pilot's own (accounts without a logbook have none).
+    ("settings.create_feed", "POST"): (302, 200, 200, 404, 404, 404),
+    ("settings.revoke_feed", "POST"): (302, 302, 302, 404, 404, 404),
+    # Planning: instructors and admins, each of their own school; an empty form is refused with its status.
+    ("plan.index", "GET"): (302, 404, 404, 200, 200, 200),
+    ("plan.propose", "POST"): (302, 404, 404, 400, 400, 400),
+    ("plan.save", "POST"): (302, 404, 404, 400, 400, 400),
+    ("plan.accept", "POST"): (302, 404, 404, 400, 400, 400),
+    ("plan.cancel", "POST"): (302, 404, 404, 400, 400, 400),
+    ("plan.move", "POST"): (302, 404, 404, 400, 400, 400),
+    # Marking flown is also open to the two people of a session: without a session id it is refused for everyone.
+    ("plan.flown", "POST"): (302, 400, 400, 400, 400, 400),
+    # A draft entry from a flown session: write access to the logbook, and the session must be named (none here).
+    ("logbook.from_session", "GET"): (302, 404, 404, 404, 404, 404),
 }
 
 NEW_PERSON = "nadia.quell@juniper-ridge.example"  # the email in person_form()
