@@ -21,7 +21,7 @@ from sqlalchemy.orm import Session
 from werkzeug.security import generate_password_hash
 
 from planner import rulesets
-from planner.core import currency
+from planner.core import currency, minimums
 from planner.core import logbook as core_logbook
 from planner.core.logbook import CATEGORIES, Entry, Logbook
 from planner.core.rules import RuleSet
@@ -37,6 +37,8 @@ __all__ = [
     "PilotStatus",
     "SeedError",
     "SettingsRejected",
+    "advised_minimums",
+    "baseline_minimums",
     "builtin_rule_set",
     "export_logbook",
     "get_pilot",
@@ -48,6 +50,7 @@ __all__ = [
     "pilot_status",
     "rule_sets_for",
     "school_overview",
+    "update_minimums",
     "update_settings",
 ]
 
@@ -155,9 +158,11 @@ _PERSON_KEYS = {
     "slug", "name", "email", "password", "roles", "certificate_level", "category_classes",
     "instrument_categories", "instructor_ratings", "medical_class", "medical_expires",
     "basicmed_expires", "home_airfield", "timezone", "rule_sets", "practice_targets", "logbook",
+    "personal_minimums",
 }
 _WINDOW_KEYS = {"person", "aircraft", "device", "timezone", "start", "end", "weekly", "note"}
 _WEEKLY_KEYS = {"days", "from", "to", "first_date", "last_date", "except"}
+_MINIMUM_KEYS = {"ceiling_ft", "visibility_sm", "crosswind_kt"}
 SEED_FORMAT = "planner-demo-school/1"
 
 
@@ -396,6 +401,12 @@ def load_demo(
                 practice_targets=dict(spec.get("practice_targets", {})),
                 created_at=stamp,
             )
+            if spec.get("personal_minimums") is not None:
+                mins = seed.obj(spec["personal_minimums"], f"{where}.personal_minimums", _MINIMUM_KEYS, _MINIMUM_KEYS)
+                try:
+                    _set_minimums(person, mins["ceiling_ft"], mins["visibility_sm"], mins["crosswind_kt"])
+                except SettingsRejected as exc:
+                    raise seed.fail(f"{where}.personal_minimums.{exc.field.removeprefix('min_')}", exc.message) from None
             session.add(person)
             session.flush()
             progress(f"created {roles[0]} {spec['name']} <{spec['email']}>")
@@ -796,3 +807,96 @@ def update_settings(
     person.timezone = timezone
     session.flush()
     return person
+
+
+# ------------------------------------------------------------------ personal minimums
+
+MAX_CEILING_FT = 10_000
+MAX_VISIBILITY_SM = 10
+MAX_CROSSWIND_KT = 50
+
+
+def _set_minimums(person: models.Person, ceiling_ft: Any, visibility_sm: Any, crosswind_kt: Any) -> None:
+    """Check and set the three baseline minimums (all three, or all None); raises ``SettingsRejected``."""
+    given = {"min_ceiling_ft": ceiling_ft, "min_visibility_sm": visibility_sm, "min_crosswind_kt": crosswind_kt}
+    if all(v is None for v in given.values()):
+        person.min_ceiling_ft = person.min_visibility_hundredths_sm = person.min_crosswind_kt = None
+        return
+    for name, value in given.items():
+        if value is None:
+            raise SettingsRejected(name, "give all three minimums, or leave all three empty")
+    try:
+        ceiling = _whole(ceiling_ft)
+        if not 0 <= ceiling <= MAX_CEILING_FT:
+            raise ValueError
+    except (TypeError, ValueError, OverflowError):
+        raise SettingsRejected("min_ceiling_ft", f"a whole number of feet from 0 to {MAX_CEILING_FT:,}") from None
+    try:
+        hundredths = float(visibility_sm) * 100
+        if hundredths != hundredths or abs(hundredths - round(hundredths)) > 1e-6:
+            raise ValueError
+        hundredths = round(hundredths)
+        if not 0 <= hundredths <= MAX_VISIBILITY_SM * 100:
+            raise ValueError
+    except (TypeError, ValueError, OverflowError):
+        raise SettingsRejected(
+            "min_visibility_sm", f"statute miles from 0 to {MAX_VISIBILITY_SM}, at most two decimals (e.g. 1.5)"
+        ) from None
+    try:
+        crosswind = _whole(crosswind_kt)
+        if not 0 <= crosswind <= MAX_CROSSWIND_KT:
+            raise ValueError
+    except (TypeError, ValueError, OverflowError):
+        raise SettingsRejected("min_crosswind_kt", f"whole knots from 0 to {MAX_CROSSWIND_KT}") from None
+    person.min_ceiling_ft = ceiling
+    person.min_visibility_hundredths_sm = hundredths
+    person.min_crosswind_kt = crosswind
+
+
+def _whole(value: Any) -> int:
+    if isinstance(value, bool):
+        raise TypeError
+    number = float(value)
+    if number != int(number):
+        raise ValueError
+    return int(number)
+
+
+def update_minimums(
+    session: Session, pilot_id: int, *, ceiling_ft: Any, visibility_sm: Any, crosswind_kt: Any
+) -> models.Person:
+    """Validate and stage the pilot's own baseline personal minimums; all three, or all None to clear.
+
+    Ceiling: whole feet 0..10,000; visibility: statute miles 0..10 in hundredths;
+    crosswind: whole knots 0..50 (product choices). Raises ``SettingsRejected``
+    naming the field (``min_ceiling_ft``, ``min_visibility_sm``, ``min_crosswind_kt``);
+    nothing is changed then.
+    """
+    person = get_pilot(session, pilot_id)
+    _set_minimums(person, ceiling_ft, visibility_sm, crosswind_kt)
+    session.flush()
+    return person
+
+
+def baseline_minimums(person: models.Person) -> minimums.Minimums | None:
+    """The pilot's baseline personal minimums, or None when not (fully) set."""
+    if None in (person.min_ceiling_ft, person.min_visibility_hundredths_sm, person.min_crosswind_kt):
+        return None
+    return minimums.Minimums(
+        ceiling_ft=person.min_ceiling_ft,
+        visibility_sm=person.min_visibility_hundredths_sm / 100,
+        crosswind_kt=float(person.min_crosswind_kt),
+    )
+
+
+def advised_minimums(session: Session, pilot_id: int, as_of: date) -> minimums.Advice | None:
+    """Advised personal minimums for ``as_of`` from the pilot's baseline and logbook; None without a baseline.
+
+    Advisory only (``planner.CAUTION``). Raises ``LookupError`` for an unknown pilot.
+    """
+    person = get_pilot(session, pilot_id)
+    baseline = baseline_minimums(person)
+    if baseline is None:
+        return None
+    entries = load_logbook(session, pilot_id).entries
+    return minimums.advise(baseline, minimums.recency_from(entries, as_of))

@@ -81,6 +81,17 @@ class Person(Base):
     __table_args__ = (
         CheckConstraint(_in("certificate_level", CERTIFICATE_LEVELS), name="certificate_level"),
         CheckConstraint(_in("medical_class", MEDICAL_CLASSES, nullable=True), name="medical_class"),
+        CheckConstraint(
+            "min_ceiling_ft IS NULL OR (min_ceiling_ft >= 0 AND min_ceiling_ft <= 10000)", name="min_ceiling_range"
+        ),
+        CheckConstraint(
+            "min_visibility_hundredths_sm IS NULL OR "
+            "(min_visibility_hundredths_sm >= 0 AND min_visibility_hundredths_sm <= 1000)",
+            name="min_visibility_range",
+        ),
+        CheckConstraint(
+            "min_crosswind_kt IS NULL OR (min_crosswind_kt >= 0 AND min_crosswind_kt <= 50)", name="min_crosswind_range"
+        ),
     )
 
     id: Mapped[intpk]
@@ -105,6 +116,11 @@ class Person(Base):
     rule_sets: Mapped[JSONList]  # names of the rule sets followed, e.g. ["faa-part61"]
     # Personal practice targets (product choice, not regulation); shape owned by the planner.
     practice_targets: Mapped[dict[str, Any]] = mapped_column(JSON, default=dict)
+    # The pilot's own baseline personal minimums (set in settings; NULL = not set). Visibility is
+    # stored as integer hundredths of a statute mile (exact and portable, like hours).
+    min_ceiling_ft: Mapped[int | None] = mapped_column(Integer)
+    min_visibility_hundredths_sm: Mapped[int | None] = mapped_column(Integer)
+    min_crosswind_kt: Mapped[int | None] = mapped_column(Integer)
     created_at: Mapped[Instant]
 
     school: Mapped[School | None] = relationship()

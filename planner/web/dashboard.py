@@ -251,6 +251,38 @@ def _move(move: currency.RequirementMove, practice: bool) -> dict[str, Any]:
     }
 
 
+def _minimums(person: models.Person, as_of: date) -> dict[str, Any] | None:
+    """The advised-minimums card: baseline -> advised per item and each adjustment; None without a baseline."""
+    advice = services.advised_minimums(db_session(), person.id, as_of)
+    if advice is None:
+        return None
+    base, adv = advice.baseline, advice.advised
+    rows = [
+        ("ceiling", "Ceiling, at least", base.ceiling_ft, adv.ceiling_ft, "ft"),
+        ("visibility", "Visibility, at least", base.visibility_sm, adv.visibility_sm, "SM"),
+        ("crosswind", "Crosswind component, at most", base.crosswind_kt, adv.crosswind_kt, "kt"),
+    ]
+    return {
+        "raised": advice.is_raised,
+        "rows": [
+            {"key": key, "label": label, "baseline": base_v, "advised": adv_v, "unit": unit,
+             "baseline_words": f"{base_v:,g} {unit}", "advised_words": f"{adv_v:,g} {unit}", "changed": base_v != adv_v}
+            for key, label, base_v, adv_v, unit in rows
+        ],
+        "adjustments": [
+            {"factor": a.factor, "reason": a.reason, "source": a.source,
+             "change": ", ".join(
+                 part for part in (
+                     f"+{a.ceiling_ft:,} ft" if a.ceiling_ft else "",
+                     f"+{a.visibility_sm:g} SM" if a.visibility_sm else "",
+                     f"crosswind −{a.crosswind_kt:g} kt" if a.crosswind_kt else "",
+                 ) if part
+             )}
+            for a in advice.adjustments
+        ],
+    }
+
+
 RECENT_SESSION_DAYS = 14
 
 
@@ -325,6 +357,7 @@ def _page(
             max_planned=MAX_PLANNED,
             action=url_for("dashboard.what_if", pilot_id=person.id),
             sessions=_sessions(person),
+            minimums=_minimums(person, as_of),
             can_edit=access.can_edit(person),
         ),
         status,

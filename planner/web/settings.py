@@ -10,7 +10,7 @@ from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
 from wtforms import DecimalField, IntegerField, SelectField, SelectMultipleField, StringField, SubmitField
 from wtforms.fields.choices import SelectChoice
-from wtforms.validators import InputRequired, Length, NumberRange, Optional, ValidationError
+from wtforms.validators import InputRequired, Length, NumberRange, Optional, StopValidation, ValidationError
 from wtforms.widgets import CheckboxInput, ListWidget
 
 from planner import planning, rulesets, services
@@ -35,6 +35,12 @@ _UNIT_LABELS = {
 }
 
 
+def _finite(_form: FlaskForm, field: DecimalField) -> None:
+    """Refuse NaN and infinities before any range check compares them."""
+    if field.data is not None and not field.data.is_finite():
+        raise StopValidation("Give a number.")
+
+
 class _Base(FlaskForm):
     rule_sets = SelectMultipleField(
         "Rule sets followed",
@@ -46,7 +52,23 @@ class _Base(FlaskForm):
         "Time zone (IANA name, e.g. America/Denver)",
         validators=[InputRequired(message="Give the time zone of your home base."), Length(max=64)],
     )
+    min_ceiling_ft = IntegerField(
+        "Ceiling, at least (ft above the airfield)",
+        validators=[Optional(), NumberRange(0, services.MAX_CEILING_FT, f"From 0 to {services.MAX_CEILING_FT:,} ft.")],
+    )
+    min_visibility_sm = DecimalField(
+        "Visibility, at least (statute miles)", places=2,
+        validators=[Optional(), _finite, NumberRange(0, services.MAX_VISIBILITY_SM, f"From 0 to {services.MAX_VISIBILITY_SM} SM.")],
+    )
+    min_crosswind_kt = IntegerField(
+        "Crosswind component, at most (kt)",
+        validators=[Optional(), NumberRange(0, services.MAX_CROSSWIND_KT, f"From 0 to {services.MAX_CROSSWIND_KT} kt.")],
+    )
     submit = SubmitField("Save settings")
+
+    def validate_min_visibility_sm(self, field: DecimalField) -> None:
+        if field.data is not None and field.data != field.data.quantize(Decimal("0.01")):
+            raise ValidationError("At most two decimals (e.g. 1.5 or 0.75).")
 
     def validate_rule_sets(self, field: SelectMultipleField) -> None:
         if not field.data:
@@ -176,6 +198,12 @@ def _edit(person: models.Person, *, feed_url: str | None = None):  # type: ignor
                     home_airfield=form.home_airfield.data or None,
                     timezone=form.timezone.data,
                 )
+                services.update_minimums(
+                    session, person.id,
+                    ceiling_ft=form.min_ceiling_ft.data,
+                    visibility_sm=form.min_visibility_sm.data,
+                    crosswind_kt=form.min_crosswind_kt.data,
+                )
             except services.SettingsRejected as exc:
                 session.rollback()
                 target = form.timezone if exc.field == "timezone" else getattr(form, exc.field, None)
@@ -192,6 +220,11 @@ def _edit(person: models.Person, *, feed_url: str | None = None):  # type: ignor
         form.rule_sets.data = list(person.rule_sets or services.DEFAULT_RULE_SETS)
         form.home_airfield.data = person.home_airfield.ident if person.home_airfield else ""
         form.timezone.data = person.timezone or ""
+        baseline = services.baseline_minimums(person)
+        if baseline is not None:
+            form.min_ceiling_ft.data = baseline.ceiling_ft
+            form.min_visibility_sm.data = Decimal(person.min_visibility_hundredths_sm) / 100
+            form.min_crosswind_kt.data = person.min_crosswind_kt
         saved = person.practice_targets or {}
         for t in targets:
             spec = saved.get(t["id"], {})
