@@ -113,7 +113,7 @@ def test_the_navigation_wraps_on_a_phone_with_tap_sized_links_and_a_visible_focu
     try:
         sign_in(page, live_server, "wren")  # the admin has the most links
         links = page.locator("nav[aria-label=Main] a")
-        assert links.all_inner_texts() == ["Dashboard", "Logbook", "School", "Settings", "People"]
+        assert links.all_inner_texts() == ["Dashboard", "Logbook", "School", "Planning", "Settings", "People"]
         overflow = page.evaluate("document.documentElement.scrollWidth - document.documentElement.clientWidth")
         assert overflow <= 0, f"the page scrolls sideways by {overflow}px on a phone"
         boxes = [links.nth(i).bounding_box() for i in range(links.count())]
