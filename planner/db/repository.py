@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import dataclasses
 import re
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from datetime import UTC, date, datetime
 from typing import Any
 
@@ -60,6 +60,7 @@ TEXT_LIMITS = {
 APPROACH_TEXT_LIMITS = {"type": 64, "airfield": 64, "runway": 16}
 MAX_COUNT = 2_000_000_000  # fits a 32-bit INTEGER column
 _TIME = re.compile(r"^([01]\d|2[0-3]):[0-5]\d$")
+FLUSH_BATCH = 1000  # add_entries sends rows to the database this many at a time
 
 
 class EntryRejected(ValueError):
@@ -406,9 +407,12 @@ def add_entries(
     entries: Sequence[core.Entry],
     *,
     now: datetime | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> list[models.Entry]:
     """Stage new entries for ``person`` (validated first; nothing is staged if one is bad).
 
+    Rows are flushed (sent, not committed) in batches of ``FLUSH_BATCH``;
+    ``progress`` hears "stored N/M entries" after each batch of a large import.
     Raises ``EntryRejected`` for a bad value or an id already in this pilot's
     logbook (deleted entries included) or repeated in ``entries``.
     """
@@ -430,11 +434,15 @@ def add_entries(
     stamp = _now(now)
     links = _Links(session, person.school_id)
     rows = []
-    for entry in entries:
+    for n, entry in enumerate(entries, start=1):
         row = models.Entry(pilot=person, version=1, created_at=stamp, updated_at=stamp, deleted_at=None)
         _fill(row, entry, links)
         session.add(row)
         rows.append(row)
+        if n % FLUSH_BATCH == 0:
+            session.flush()
+            if progress is not None:
+                progress(f"stored {n}/{len(entries)} entries (not yet committed)")
     session.flush()
     return rows
 
