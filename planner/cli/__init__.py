@@ -9,7 +9,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from planner.cli import currency, data
+from planner.cli import backup, currency, data
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -25,6 +25,7 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", required=True)
     data.register(sub)
     currency.register(sub)
+    backup.register(sub)
     return parser
 
 

@@ -654,6 +654,29 @@ def school_people(session: Session, school_id: int | None, *, pilots_only: bool 
     return list(session.scalars(query.order_by(models.Person.name, models.Person.id)))
 
 
+def school_availability(session: Session, school_id: int) -> list[models.AvailabilityWindow]:
+    """Availability windows of the school's people, aircraft and training devices (any order)."""
+    W = models.AvailabilityWindow
+    people = select(models.Person.id).where(models.Person.school_id == school_id)
+    aircraft = select(models.Aircraft.id).where(models.Aircraft.school_id == school_id)
+    devices = select(models.TrainingDevice.id).where(models.TrainingDevice.school_id == school_id)
+    return list(
+        session.scalars(
+            select(W).where(or_(W.person_id.in_(people), W.aircraft_id.in_(aircraft), W.device_id.in_(devices)))
+        )
+    )
+
+
+def school_people_by_id(session: Session, school_id: int) -> list[models.Person]:
+    """Everyone of the school in the order they were created (by id)."""
+    return list(session.scalars(select(models.Person).where(models.Person.school_id == school_id).order_by(models.Person.id)))
+
+
+def school_by_slug(session: Session, slug: str) -> models.School | None:
+    """The school with this slug, if any."""
+    return find_by(session, models.School, slug=slug)
+
+
 def all_airfields(session: Session) -> list[models.Airfield]:
     """Every airfield, by identifier."""
     return list(session.scalars(select(models.Airfield).order_by(models.Airfield.ident)))
