@@ -11,6 +11,9 @@ Variables:
   random key generated once and kept in ``<instance>/secret_key`` (fine for a
   single machine; set it explicitly when several workers or hosts serve the app).
 - ``PLANNER_SEED_DIR``: the demo scenario directory. Default: ``<repository>/seed_demo``.
+- ``PLANNER_SECURE_COOKIES``: ``1``/``true``/``yes``/``on`` marks the session and
+  remember cookies ``Secure`` (sent over https only). Turn it on whenever the app
+  is served over https (behind a proxy that terminates TLS, too). Default: off.
 """
 
 from __future__ import annotations
@@ -34,6 +37,8 @@ class Settings:
     seed_dir: Path
     # Pin "today" (ISO date) for demos and tests; None reads the clock in the pilot's time zone.
     today: str | None = None
+    # Cookies carry the Secure flag (https only).
+    secure_cookies: bool = False
 
     @classmethod
     def from_env(cls, environ: Mapping[str, str] | None = None) -> Settings:
@@ -52,7 +57,13 @@ class Settings:
             instance_dir=instance_dir,
             seed_dir=seed_dir,
             today=env.get("PLANNER_TODAY") or None,
+            secure_cookies=_flag(env.get("PLANNER_SECURE_COOKIES")),
         )
+
+
+def _flag(value: str | None) -> bool:
+    """An on/off environment variable (unset or empty is off)."""
+    return (value or "").strip().lower() in ("1", "true", "yes", "on")
 
 
 def _persisted_secret(instance_dir: Path) -> str:
