@@ -8,7 +8,7 @@ from typing import Any
 from flask import Blueprint, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
-from wtforms import DecimalField, IntegerField, SelectField, SelectMultipleField, StringField, SubmitField
+from wtforms import DecimalField, SelectField, SelectMultipleField, StringField, SubmitField
 from wtforms.fields.choices import SelectChoice
 from wtforms.validators import InputRequired, Length, NumberRange, Optional, ValidationError
 from wtforms.widgets import CheckboxInput, ListWidget
@@ -17,7 +17,7 @@ from planner import rulesets, services
 from planner.core import rules as r
 from planner.db import models, repository
 from planner.rulesets import overrides
-from planner.web import db_session
+from planner.web import db_session, forms
 from planner.web import status_words as words
 from planner.web.access import pilot_or_404
 
@@ -67,7 +67,7 @@ def _targets() -> list[dict[str, Any]]:
 def _form_class(targets: list[dict[str, Any]]) -> type[FlaskForm]:
     attrs: dict[str, Any] = {}
     for t in targets:
-        attrs[t["days_field"]] = IntegerField(
+        attrs[t["days_field"]] = forms.BoundedIntegerField(
             "Interval (days)",
             validators=[Optional(), NumberRange(1, overrides.MAX_DAYS, f"From 1 to {overrides.MAX_DAYS} days.")],
         )
@@ -79,7 +79,7 @@ def _form_class(targets: list[dict[str, Any]]) -> type[FlaskForm]:
                     validators=[Optional(), NumberRange(Decimal("0.1"), overrides.MAX_COUNT, "From 0.1 to 100.")],
                 )
             else:
-                attrs[name] = IntegerField(
+                attrs[name] = forms.BoundedIntegerField(
                     f"{label}, at least",
                     validators=[Optional(), NumberRange(1, overrides.MAX_COUNT, "From 1 to 100.")],
                 )
