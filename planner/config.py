@@ -76,9 +76,16 @@ def _persisted_secret(instance_dir: Path) -> str:
     except FileNotFoundError:
         pass
     instance_dir.mkdir(parents=True, exist_ok=True)
-    key = secrets.token_hex(32)
-    # Owner-only permissions: the key signs sessions.
-    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
+    # Several workers may start at once: each writes a candidate to its own file and links it into place,
+    # which succeeds for exactly one; everyone then uses the key on disk. Owner-only: the key signs sessions.
+    candidate = instance_dir / f".secret_key.{os.getpid()}.{secrets.token_hex(4)}"
+    fd = os.open(candidate, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
     with os.fdopen(fd, "w", encoding="utf-8") as fh:
-        fh.write(key + "\n")
-    return key
+        fh.write(secrets.token_hex(32) + "\n")
+    try:
+        os.link(candidate, path)
+    except FileExistsError:
+        pass
+    finally:
+        candidate.unlink()
+    return path.read_text(encoding="utf-8").strip()
