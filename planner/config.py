@@ -11,6 +11,9 @@ Variables:
   random key generated once and kept in ``<instance>/secret_key`` (fine for a
   single machine; set it explicitly when several workers or hosts serve the app).
 - ``PLANNER_SEED_DIR``: the demo scenario directory. Default: ``<repository>/seed_demo``.
+- ``PLANNER_SECURE_COOKIES``: ``1``/``true``/``yes``/``on`` marks the session and
+  remember cookies ``Secure`` (sent over https only). Turn it on whenever the app
+  is served over https (behind a proxy that terminates TLS, too). Default: off.
 """
 
 from __future__ import annotations
@@ -34,6 +37,8 @@ class Settings:
     seed_dir: Path
     # Pin "today" (ISO date) for demos and tests; None reads the clock in the pilot's time zone.
     today: str | None = None
+    # Cookies carry the Secure flag (https only).
+    secure_cookies: bool = False
 
     @classmethod
     def from_env(cls, environ: Mapping[str, str] | None = None) -> Settings:
@@ -52,7 +57,13 @@ class Settings:
             instance_dir=instance_dir,
             seed_dir=seed_dir,
             today=env.get("PLANNER_TODAY") or None,
+            secure_cookies=_flag(env.get("PLANNER_SECURE_COOKIES")),
         )
+
+
+def _flag(value: str | None) -> bool:
+    """An on/off environment variable (unset or empty is off)."""
+    return (value or "").strip().lower() in ("1", "true", "yes", "on")
 
 
 def _persisted_secret(instance_dir: Path) -> str:
@@ -65,9 +76,16 @@ def _persisted_secret(instance_dir: Path) -> str:
     except FileNotFoundError:
         pass
     instance_dir.mkdir(parents=True, exist_ok=True)
-    key = secrets.token_hex(32)
-    # Owner-only permissions: the key signs sessions.
-    fd = os.open(path, os.O_WRONLY | os.O_CREAT | os.O_TRUNC, 0o600)
+    # Several workers may start at once: each writes a candidate to its own file and links it into place,
+    # which succeeds for exactly one; everyone then uses the key on disk. Owner-only: the key signs sessions.
+    candidate = instance_dir / f".secret_key.{os.getpid()}.{secrets.token_hex(4)}"
+    fd = os.open(candidate, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
     with os.fdopen(fd, "w", encoding="utf-8") as fh:
-        fh.write(key + "\n")
-    return key
+        fh.write(secrets.token_hex(32) + "\n")
+    try:
+        os.link(candidate, path)
+    except FileExistsError:
+        pass
+    finally:
+        candidate.unlink()
+    return path.read_text(encoding="utf-8").strip()

@@ -97,8 +97,9 @@ def import_logbook(
     pilot_id: int | None = None,
     *,
     now: datetime | None = None,
+    progress: Progress = _quiet,
 ) -> int:
-    """Stage a logbook's entries; return the pilot's id.
+    """Stage a logbook's entries; return the pilot's id (``progress`` hears each stored batch).
 
     Without ``pilot_id`` a new pilot is created from the logbook's pilot
     block; with it, the entries are added to that pilot (the pilot block is
@@ -124,7 +125,7 @@ def import_logbook(
         session.flush()
     else:
         person = get_pilot(session, pilot_id)
-    repository.add_entries(session, person, list(logbook.entries), now=stamp)
+    repository.add_entries(session, person, list(logbook.entries), now=stamp, progress=progress)
     return person.id
 
 

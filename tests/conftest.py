@@ -26,7 +26,7 @@ DEMO_SLUGS = ("mara", "tobias", "priya", "dev", "signe", "rafael")
 @pytest.fixture(autouse=True)
 def _isolated_environment(tmp_path: Path, monkeypatch: pytest.MonkeyPatch) -> None:
     """No test reads the developer's settings or writes under the repository's instance/."""
-    for name in ("PLANNER_DATABASE_URL", "PLANNER_SECRET_KEY", "PLANNER_SEED_DIR"):
+    for name in ("PLANNER_DATABASE_URL", "PLANNER_SECRET_KEY", "PLANNER_SEED_DIR", "PLANNER_SECURE_COOKIES"):
         monkeypatch.delenv(name, raising=False)
     monkeypatch.setenv("PLANNER_INSTANCE_DIR", str(tmp_path / "instance"))
 

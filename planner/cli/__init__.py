@@ -9,7 +9,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from planner.cli import currency, data, plan
+from planner.cli import backup, currency, data, plan
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -26,6 +26,7 @@ def build_parser() -> argparse.ArgumentParser:
     data.register(sub)
     currency.register(sub)
     plan.register(sub)
+    backup.register(sub)
     return parser
 
 

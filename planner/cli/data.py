@@ -185,7 +185,7 @@ def cmd_import(args: argparse.Namespace) -> int:
     _err(f"read {len(logbook.entries)} entries for {logbook.pilot.name} from {path}; storing ...")
     try:
         with open_session() as session:
-            pilot_id = services.import_logbook(session, logbook, args.pilot)
+            pilot_id = services.import_logbook(session, logbook, args.pilot, progress=_err)
     except LookupError as exc:
         raise CommandError(f"{exc} (see `planner pilots`); nothing was imported", EXIT_NOT_FOUND) from None
     except services.EntryRejected as exc:

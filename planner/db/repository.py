@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import dataclasses
 import re
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from datetime import UTC, date, datetime
 from typing import Any
 
@@ -53,6 +53,7 @@ TEXT_LIMITS = {
 APPROACH_TEXT_LIMITS = {"type": 64, "airfield": 64, "runway": 16}
 MAX_COUNT = 2_000_000_000  # fits a 32-bit INTEGER column
 _TIME = re.compile(r"^([01]\d|2[0-3]):[0-5]\d$")
+FLUSH_BATCH = 1000  # add_entries sends rows to the database this many at a time
 
 
 class EntryRejected(ValueError):
@@ -399,9 +400,12 @@ def add_entries(
     entries: Sequence[core.Entry],
     *,
     now: datetime | None = None,
+    progress: Callable[[str], None] | None = None,
 ) -> list[models.Entry]:
     """Stage new entries for ``person`` (validated first; nothing is staged if one is bad).
 
+    Rows are flushed (sent, not committed) in batches of ``FLUSH_BATCH``;
+    ``progress`` hears "stored N/M entries" after each batch of a large import.
     Raises ``EntryRejected`` for a bad value or an id already in this pilot's
     logbook (deleted entries included) or repeated in ``entries``.
     """
@@ -423,11 +427,15 @@ def add_entries(
     stamp = _now(now)
     links = _Links(session, person.school_id)
     rows = []
-    for entry in entries:
+    for n, entry in enumerate(entries, start=1):
         row = models.Entry(pilot=person, version=1, created_at=stamp, updated_at=stamp, deleted_at=None)
         _fill(row, entry, links)
         session.add(row)
         rows.append(row)
+        if n % FLUSH_BATCH == 0:
+            session.flush()
+            if progress is not None:
+                progress(f"stored {n}/{len(entries)} entries (not yet committed)")
     session.flush()
     return rows
 
@@ -637,6 +645,29 @@ def school_people(session: Session, school_id: int | None, *, pilots_only: bool 
     if pilots_only:
         query = query.where(models.Person.is_pilot.is_(True))
     return list(session.scalars(query.order_by(models.Person.name, models.Person.id)))
+
+
+def school_availability(session: Session, school_id: int) -> list[models.AvailabilityWindow]:
+    """Availability windows of the school's people, aircraft and training devices (any order)."""
+    W = models.AvailabilityWindow
+    people = select(models.Person.id).where(models.Person.school_id == school_id)
+    aircraft = select(models.Aircraft.id).where(models.Aircraft.school_id == school_id)
+    devices = select(models.TrainingDevice.id).where(models.TrainingDevice.school_id == school_id)
+    return list(
+        session.scalars(
+            select(W).where(or_(W.person_id.in_(people), W.aircraft_id.in_(aircraft), W.device_id.in_(devices)))
+        )
+    )
+
+
+def school_people_by_id(session: Session, school_id: int) -> list[models.Person]:
+    """Everyone of the school in the order they were created (by id)."""
+    return list(session.scalars(select(models.Person).where(models.Person.school_id == school_id).order_by(models.Person.id)))
+
+
+def school_by_slug(session: Session, slug: str) -> models.School | None:
+    """The school with this slug, if any."""
+    return find_by(session, models.School, slug=slug)
 
 
 def all_airfields(session: Session) -> list[models.Airfield]:

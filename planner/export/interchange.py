@@ -717,6 +717,8 @@ def _cell_count(cell: str, column: str) -> int:
         return 0
     if not s.isascii() or not s.isdigit():
         raise _Bad(column, f"must be a whole number >= 0, got {_show(cell)}")
+    if len(s.lstrip("0")) > len(str(MAX_COUNT)):  # before int(): Python refuses very long digit strings itself
+        raise _Bad(column, f"must be at most {MAX_COUNT}, got {_show(cell)}")
     return int(s)
 
 

@@ -72,6 +72,8 @@ def create_app(settings: Settings | None = None, **overrides: Any) -> Flask:
         SESSION_COOKIE_SAMESITE="Lax",
         REMEMBER_COOKIE_HTTPONLY=True,
         REMEMBER_COOKIE_SAMESITE="Lax",
+        SESSION_COOKIE_SECURE=settings.secure_cookies,
+        REMEMBER_COOKIE_SECURE=settings.secure_cookies,
         WTF_CSRF_ENABLED=True,
     )
     if settings.today:

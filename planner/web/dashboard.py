@@ -19,7 +19,6 @@ from wtforms import (
     FieldList,
     Form,
     FormField,
-    IntegerField,
     SelectField,
     StringField,
     SubmitField,
@@ -31,7 +30,7 @@ from planner import planning, services
 from planner.core import currency
 from planner.core.logbook import Approach, Entry
 from planner.db import models
-from planner.web import access, chart, db_session, now, today
+from planner.web import access, chart, db_session, forms, now, today
 from planner.web import status_words as words
 from planner.web.access import pilot_or_404
 
@@ -64,20 +63,20 @@ class PlannedEntryForm(Form):
 
     day = DateField("Date", validators=[InputRequired(message="Give the date of the planned flight.")])
     setting = SelectField("Flown in", choices=SETTINGS, default="simulated")
-    approaches = IntegerField("Approaches", default=0, validators=[Optional(), NumberRange(0, 20, "From 0 to 20.")])
+    approaches = forms.BoundedIntegerField("Approaches", default=0, validators=[Optional(), NumberRange(0, 20, "From 0 to 20.")])
     approach_type = StringField("Approach type (e.g. ILS, RNAV)", validators=[Length(max=40)])
     approach_airfield = StringField("Approach airfield", validators=[Length(max=16)])
-    holds = IntegerField("Holds", default=0, validators=[Optional(), NumberRange(0, 20, "From 0 to 20.")])
+    holds = forms.BoundedIntegerField("Holds", default=0, validators=[Optional(), NumberRange(0, 20, "From 0 to 20.")])
     course_tracking = BooleanField("Course intercepting and tracking")
     instrument_hours = DecimalField(
         "Instrument time (hours)", default=0, places=1, validators=[Optional(), NumberRange(0, 12, "From 0 to 12 hours.")]
     )
-    partial_panel = IntegerField(
+    partial_panel = forms.BoundedIntegerField(
         "Partial-panel approaches", default=0, validators=[Optional(), NumberRange(0, 20, "From 0 to 20.")]
     )
-    ua_nose_high = IntegerField("Nose-high recoveries", default=0, validators=[Optional(), NumberRange(0, 20, "From 0 to 20.")])
-    ua_nose_low = IntegerField("Nose-low recoveries", default=0, validators=[Optional(), NumberRange(0, 20, "From 0 to 20.")])
-    landings = IntegerField("Landings", default=0, validators=[Optional(), NumberRange(0, 50, "From 0 to 50.")])
+    ua_nose_high = forms.BoundedIntegerField("Nose-high recoveries", default=0, validators=[Optional(), NumberRange(0, 20, "From 0 to 20.")])
+    ua_nose_low = forms.BoundedIntegerField("Nose-low recoveries", default=0, validators=[Optional(), NumberRange(0, 20, "From 0 to 20.")])
+    landings = forms.BoundedIntegerField("Landings", default=0, validators=[Optional(), NumberRange(0, 50, "From 0 to 50.")])
     check = SelectField("Check passed", choices=CHECKS, default="")
 
     def validate_approach_type(self, field: StringField) -> None:

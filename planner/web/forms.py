@@ -17,6 +17,7 @@ from typing import Any
 
 from flask_wtf import FlaskForm
 from wtforms import (
+    IntegerField,
     BooleanField,
     DateField,
     EmailField,
@@ -380,3 +381,20 @@ class PersonForm(FlaskForm):
     password = PasswordField("Initial password", validators=[Length(max=200)],
                              render_kw={"autocomplete": "new-password"})
     submit = SubmitField("Save person")
+
+
+class BoundedIntegerField(IntegerField):
+    """An ``IntegerField`` that refuses a number of more than 12 digits as not a number.
+
+    WTForms' ``NumberRange`` calls ``math.isnan`` on the value, which raises
+    ``OverflowError`` for a huge integer: without this a posted
+    "99999...9" was a server error instead of a field message.
+    """
+
+    MAX_DIGITS = 12
+
+    def process_formdata(self, valuelist: list[Any]) -> None:
+        if valuelist and isinstance(valuelist[0], str) and len(valuelist[0].strip().lstrip("+-")) > self.MAX_DIGITS:
+            self.data = None
+            raise ValueError(self.gettext("Not a valid integer value."))
+        super().process_formdata(valuelist)

@@ -8,7 +8,7 @@ from typing import Any
 from flask import Blueprint, abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
-from wtforms import DecimalField, IntegerField, SelectField, SelectMultipleField, StringField, SubmitField
+from wtforms import DecimalField, SelectField, SelectMultipleField, StringField, SubmitField
 from wtforms.fields.choices import SelectChoice
 from wtforms.validators import InputRequired, Length, NumberRange, Optional, StopValidation, ValidationError
 from wtforms.widgets import CheckboxInput, ListWidget
@@ -17,7 +17,7 @@ from planner import planning, rulesets, services
 from planner.core import rules as r
 from planner.db import models, repository
 from planner.rulesets import overrides
-from planner.web import db_session, now
+from planner.web import db_session, forms, now
 from planner.web import status_words as words
 from planner.web.access import pilot_or_404
 
@@ -52,7 +52,7 @@ class _Base(FlaskForm):
         "Time zone (IANA name, e.g. America/Denver)",
         validators=[InputRequired(message="Give the time zone of your home base."), Length(max=64)],
     )
-    min_ceiling_ft = IntegerField(
+    min_ceiling_ft = forms.BoundedIntegerField(
         "Ceiling, at least (ft above the airfield)",
         validators=[Optional(), NumberRange(0, services.MAX_CEILING_FT, f"From 0 to {services.MAX_CEILING_FT:,} ft.")],
     )
@@ -60,7 +60,7 @@ class _Base(FlaskForm):
         "Visibility, at least (statute miles)", places=2,
         validators=[Optional(), _finite, NumberRange(0, services.MAX_VISIBILITY_SM, f"From 0 to {services.MAX_VISIBILITY_SM} SM.")],
     )
-    min_crosswind_kt = IntegerField(
+    min_crosswind_kt = forms.BoundedIntegerField(
         "Crosswind component, at most (kt)",
         validators=[Optional(), NumberRange(0, services.MAX_CROSSWIND_KT, f"From 0 to {services.MAX_CROSSWIND_KT} kt.")],
     )
@@ -89,7 +89,7 @@ def _targets() -> list[dict[str, Any]]:
 def _form_class(targets: list[dict[str, Any]]) -> type[FlaskForm]:
     attrs: dict[str, Any] = {}
     for t in targets:
-        attrs[t["days_field"]] = IntegerField(
+        attrs[t["days_field"]] = forms.BoundedIntegerField(
             "Interval (days)",
             validators=[Optional(), NumberRange(1, overrides.MAX_DAYS, f"From 1 to {overrides.MAX_DAYS} days.")],
         )
@@ -101,7 +101,7 @@ def _form_class(targets: list[dict[str, Any]]) -> type[FlaskForm]:
                     validators=[Optional(), NumberRange(Decimal("0.1"), overrides.MAX_COUNT, "From 0.1 to 100.")],
                 )
             else:
-                attrs[name] = IntegerField(
+                attrs[name] = forms.BoundedIntegerField(
                     f"{label}, at least",
                     validators=[Optional(), NumberRange(1, overrides.MAX_COUNT, "From 1 to 100.")],
                 )

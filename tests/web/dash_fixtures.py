@@ -41,7 +41,13 @@ def build_database(base: Path, seed: Path, *, reader: Callable[..., Any] | None 
     ``reader`` reads the seed's logbooks (the loader's default when None); ``extra`` adds rows before the commit.
     """
     path = base / "demo.sqlite3"
-    url = f"sqlite:///{path}"
+    load_demo_at(f"sqlite:///{path}", seed, reader=reader, extra=extra)
+    return path
+
+
+def load_demo_at(url: str, seed: Path, *, reader: Callable[..., Any] | None = None,
+                 extra: Callable[[Session], None] | None = None) -> None:
+    """Migrate the (empty) database at ``url`` and load the demo school of ``seed`` as of 2026-12-01."""
     migrate.upgrade(url)
     engine = make_engine(url)
     with make_session_factory(engine)() as s:
@@ -50,7 +56,6 @@ def build_database(base: Path, seed: Path, *, reader: Callable[..., Any] | None 
             extra(s)
         s.commit()
     engine.dispose()
-    return path
 
 
 def build_demo_database(base: Path) -> Path:
@@ -59,7 +64,12 @@ def build_demo_database(base: Path) -> Path:
 
 
 def make_app(path: Path, tmp_path: Path, **config: object) -> Flask:
-    settings = Settings(database_url=f"sqlite:///{path}", secret_key="test-secret", instance_dir=tmp_path, seed_dir=tmp_path)
+    return make_app_at(f"sqlite:///{path}", tmp_path, **config)
+
+
+def make_app_at(url: str, tmp_path: Path, **config: object) -> Flask:
+    """The app on the database at ``url`` (SQLite or PostgreSQL), today pinned to 2026-12-01."""
+    settings = Settings(database_url=url, secret_key="test-secret", instance_dir=tmp_path, seed_dir=tmp_path)
     return create_app(settings, TESTING=True, PLANNER_TODAY=AS_OF.isoformat(), **config)
 
 

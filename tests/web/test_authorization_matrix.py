@@ -18,6 +18,9 @@ every other POST carries no form data and answers with its validation status.
 Each case then checks the database: only a write the visitor is allowed to
 make changes anything, and it changes what it should.
 
+The matrix runs on SQLite and on PostgreSQL (the module's database fixture is
+parametrised over both; each case gets its own copy of the built database).
+
 Subjects: ``pilot`` is Mara (the pilot whose ids appear in the URLs); ``other
 pilot`` is Tobias of the same school; ``instructor`` is Hollis (same school,
 no logbook); ``instructor elsewhere`` teaches at a second, invented school;
@@ -27,6 +30,7 @@ no logbook); ``instructor elsewhere`` teaches at a second, invented school;
 from __future__ import annotations
 
 import shutil
+import uuid
 from collections.abc import Callable, Iterator
 from datetime import UTC, date, datetime
 from pathlib import Path
@@ -34,12 +38,16 @@ from typing import Any
 
 import pytest
 from flask import Flask
-from sqlalchemy import func, select
+from sqlalchemy import func, select, text
+from sqlalchemy.engine import make_url
 
 from planner.core.logbook import Entry
 from planner.db import models, repository
 from planner.web import db_session
-from tests.web.dash_fixtures import OTHER_SCHOOL, add_other_school, build_demo_database, make_app, person_id
+from planner.config import REPO_ROOT
+from tests.conftest import _pg_admin
+from tests.web.dash_fixtures import (OTHER_SCHOOL, add_other_school, build_demo_database, load_demo_at, make_app_at,
+                                     person_id)
 from tests.web.test_admin import person_form
 from tests.web.test_logbook import form_data
 
@@ -108,24 +116,77 @@ NEW_PERSON = "nadia.quell@juniper-ridge.example"  # the email in person_form()
 # ------------------------------------------------------------------ fixtures
 
 
-@pytest.fixture(scope="module")
-def matrix_database(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    """The demo school and a second, invented school, built once per module."""
+class MatrixSource:
+    """The built matrix database and fresh copies of it: file copies on SQLite, template clones on PostgreSQL."""
+
+    def __init__(self, kind: str, url: str) -> None:
+        self.kind, self.url = kind, url
+        self._shared: str | None = None
+        self._admin = _pg_admin() if kind == "postgres" else None
+
+    def copy(self, tmp_path: Path, *, read_only: bool) -> str:
+        """A URL for a copy of the database. On PostgreSQL, read-only cases (GET) share one clone."""
+        if self.kind == "sqlite":
+            path = tmp_path / "matrix.sqlite3"
+            shutil.copy(make_url(self.url).database, path)
+            return f"sqlite:///{path}"
+        if read_only:
+            if self._shared is None:
+                self._shared = self._clone()
+            return self._shared
+        return self._clone()
+
+    def _clone(self) -> str:
+        name = f"{make_url(self.url).database}_{uuid.uuid4().hex[:8]}"
+        with self._admin.connect() as conn:
+            conn.execute(text(f'CREATE DATABASE "{name}" TEMPLATE "{make_url(self.url).database}"'))
+        return self.url.rsplit("/", 1)[0] + f"/{name}"
+
+    def discard(self, url: str) -> None:
+        """Drop a per-case clone (the shared one lives until the module ends)."""
+        if self.kind == "postgres" and url != self._shared:
+            with self._admin.connect() as conn:
+                conn.execute(text(f'DROP DATABASE IF EXISTS "{make_url(url).database}" WITH (FORCE)'))
+
+    def close(self) -> None:
+        if self._admin is not None:
+            if self._shared is not None:
+                self._shared, shared = None, self._shared
+                with self._admin.connect() as conn:
+                    conn.execute(text(f'DROP DATABASE IF EXISTS "{make_url(shared).database}" WITH (FORCE)'))
+            self._admin.dispose()
+
+
+@pytest.fixture(scope="module", params=["sqlite", pytest.param("postgres", marks=pytest.mark.postgres)])
+def matrix_database(request: pytest.FixtureRequest, tmp_path_factory: pytest.TempPathFactory) -> Iterator[MatrixSource]:
+    """The demo school and a second, invented school, built once per module on SQLite and on PostgreSQL."""
     base = tmp_path_factory.mktemp("matrix")
-    path = base / "matrix.sqlite3"
-    shutil.copy(build_demo_database(base), path)
-    app = make_app(path, base)
+    if request.param == "sqlite":
+        path = base / "matrix.sqlite3"
+        shutil.copy(build_demo_database(base), path)
+        url = f"sqlite:///{path}"
+    else:
+        url = request.getfixturevalue("pg_url")  # a fresh database, used as the template of each copy
+        load_demo_at(url, REPO_ROOT / "seed_demo")
+    app = make_app_at(url, base)
     add_other_school(app)
     app.extensions["planner.engine"].dispose()
-    return path
+    source = MatrixSource(request.param, url)
+    yield source
+    source.close()
 
 
 @pytest.fixture
-def matrix_app(matrix_database: Path, tmp_path: Path) -> Iterator[Flask]:
-    """A fresh copy per case, so that an allowed write cannot leak into the next case."""
-    path = tmp_path / "matrix.sqlite3"
-    shutil.copy(matrix_database, path)
-    app = make_app(path, tmp_path, WTF_CSRF_ENABLED=False)
+def matrix_app(matrix_database: MatrixSource, tmp_path: Path, request: pytest.FixtureRequest) -> Iterator[Flask]:
+    """A fresh copy per case, so that an allowed write cannot leak into the next case.
+
+    (On PostgreSQL a GET case, which must not write and is checked for it, uses a shared copy: cloning a
+    database per case costs a third of a second.)
+    """
+    callspec = getattr(request.node, "callspec", None)
+    route = callspec.params.get("route") if callspec is not None else None
+    url = matrix_database.copy(tmp_path, read_only=route is not None and route[1] == "GET")
+    app = make_app_at(url, tmp_path, WTF_CSRF_ENABLED=False)
     with app.app_context():
         other = {p.email: p.id for p in db_session().scalars(select(models.Person).where(models.Person.email.like("%@larkspur-field.example")))}
     app.config["MATRIX_IDS"] = {
@@ -141,6 +202,7 @@ def matrix_app(matrix_database: Path, tmp_path: Path) -> Iterator[Flask]:
         app.config["MATRIX_REF"] = repository.current_entries(db_session(), app.config["MATRIX_IDS"]["pilot"])[0].external_id
     yield app
     app.extensions["planner.engine"].dispose()
+    matrix_database.discard(url)
 
 
 def _routes(app: Flask) -> dict[tuple[str, str], str]:
