@@ -749,7 +749,7 @@ def _cell_approaches(cell: str) -> Any:
     if s == "":
         return []
     if s.isascii() and s.isdigit():
-        return int(s)
+        return _cell_count(s, "approaches")
     out = []
     for i, item in enumerate(s.split(";"), start=1):
         item = item.strip()
@@ -907,7 +907,8 @@ def read_csv(text: str) -> Logbook:
         if name in pilot_cells:
             pilot[name] = _cell_list(pilot_cells[name])
     doc: dict[str, Any] = {
-        "format_version": int(version_cell) if version_cell.isascii() and version_cell.isdigit()
+        # A short digit string is read as a number (and then checked); anything else is refused as given.
+        "format_version": int(version_cell) if version_cell.isascii() and version_cell.isdigit() and len(version_cell) < 10
         else version_cell,
         "pilot": pilot,
         "entries": [],

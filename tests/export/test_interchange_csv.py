@@ -182,3 +182,17 @@ def test_examples_in_the_documentation_read_and_agree():
     from_csv = ix.read_csv(csv_example)
     assert from_json == from_csv
     assert ix.write_csv(from_json) == csv_example
+
+
+def test_an_approaches_cell_of_thirty_thousand_digits_is_refused_with_the_column_named() -> None:
+    # Found by the fuzz run: Python refuses to convert a digit string this long and raised a bare ValueError.
+    from datetime import date
+
+    from planner.core.logbook import Entry, Logbook, Pilot
+    from planner.export import interchange
+
+    text = interchange.write_csv(Logbook(Pilot("A"), (Entry("e1", date(2026, 1, 1), unlogged_approaches=2),)))
+    huge = text.replace(",2,", "," + "9" * 30000 + ",", 1)
+    assert huge != text
+    with pytest.raises(interchange.InterchangeError, match="approaches"):
+        interchange.read_csv(huge)

@@ -100,6 +100,8 @@ WHAT_IF = {
 }
 SETTINGS = {"rule_sets": ["faa-part61", "practice-targets"], "home_airfield": "QJRR", "timezone": "America/Denver",
             "pt0_days": "60", "pt0_0": "2", "pt1_days": "90", "submit": "Save settings"}
+PLAN_RANGE = {"start": "2026-12-01", "end": "2026-12-03"}  # short: a kept range runs the scheduler
+PLAN_SESSION = {"session_id": "1", "version": "1"}
 SIGN_IN = {"email": "mara.oyelaran@juniper-ridge.example", "password": "not-the-password", "next": "/"}
 
 # route name -> (visitors allowed to use it, URL template, base form)
@@ -118,11 +120,21 @@ ROUTES: dict[str, tuple[tuple[str, ...], str, dict[str, Any]]] = {
                           person_form(name="Tobias Lindqvist", email="tobias.lindqvist@juniper-ridge.example", password="")),
     "auth.login": (("anonymous",), "/login", SIGN_IN),
     "auth.logout": (("pilot", "instructor", "admin"), "/logout", {}),
+    "settings.create_feed": (("pilot", "instructor", "admin"), "/settings/calendar-link", {}),
+    "settings.revoke_feed": (("pilot", "instructor", "admin"), "/settings/calendar-link/revoke", {}),
+    "plan.propose": (("instructor", "admin", "pilot"), "/plan/propose", PLAN_RANGE),
+    "plan.save": (("instructor", "admin"), "/plan/save", PLAN_RANGE),
+    "plan.accept": (("instructor", "admin", "pilot"), "/plan/accept", PLAN_SESSION),
+    "plan.cancel": (("instructor", "admin"), "/plan/cancel", PLAN_SESSION),
+    "plan.move": (("instructor", "admin"), "/plan/move", dict(PLAN_SESSION, starts_at="2026-12-02T10:00")),
+    "plan.flown": (("instructor", "pilot"), "/plan/flown", PLAN_SESSION),
 }
 ROUTE_GROUPS = {
     "logbook": ("logbook.create", "logbook.edit", "logbook.delete", "logbook.restore", "logbook.credit"),
     "settings and what-if": ("dashboard.what_if", "settings.index", "settings.pilot"),
     "admin and sign-in": ("admin.create_person", "admin.edit_person", "auth.login", "auth.logout"),
+    "planning and calendar link": ("plan.propose", "plan.save", "plan.accept", "plan.cancel", "plan.move",
+                                   "plan.flown", "settings.create_feed", "settings.revoke_feed"),
 }
 
 
@@ -240,7 +252,10 @@ class Fuzzer:
                 " (SELECT coalesce(sum(version), 0) FROM entries), (SELECT count(*) FROM entries WHERE deleted_at IS NULL),"
                 " (SELECT count(*) FROM approaches), (SELECT count(*) FROM entry_checks),"
                 " (SELECT count(*) FROM entry_revisions), (SELECT count(*) FROM availability_windows),"
-                " (SELECT count(*) FROM aircraft), (SELECT count(*) FROM airfields)"
+                " (SELECT count(*) FROM aircraft), (SELECT count(*) FROM airfields),"
+                " (SELECT count(*) FROM practice_sessions), (SELECT coalesce(sum(sequence), 0) FROM practice_sessions),"
+                " (SELECT count(*) FROM calendar_feed_tokens),"
+                " (SELECT count(*) FROM calendar_feed_tokens WHERE revoked_at IS NULL)"
             )).one()
             # Every school person's whole row (what a form can change); imported pilots, who pile up and whose
             # rows no form here edits, are covered by the count.

@@ -16,7 +16,8 @@ from werkzeug.serving import make_server
 from planner.db import models
 
 TABLES = (models.School, models.Airfield, models.Person, models.Aircraft, models.TrainingDevice, models.Entry,
-          models.Approach, models.EntryCheck, models.EntryRevision, models.AvailabilityWindow, models.SignInThrottle)
+          models.Approach, models.EntryCheck, models.EntryRevision, models.AvailabilityWindow, models.SignInThrottle,
+          models.PracticeSession, models.CalendarFeedToken)
 
 
 @contextmanager

@@ -37,6 +37,14 @@ POST_ROUTES: dict[str, str | None] = {
     "logbook.credit": "mara",
     "admin.create_person": "wren",
     "admin.edit_person": "wren",
+    "settings.create_feed": "mara",
+    "settings.revoke_feed": "mara",
+    "plan.propose": "hollis",
+    "plan.save": "hollis",
+    "plan.accept": "hollis",
+    "plan.cancel": "hollis",
+    "plan.move": "hollis",
+    "plan.flown": "hollis",
 }
 # The page whose form carries a real token, and the data of a request that then succeeds (302).
 GOES_THROUGH = {"auth.login", "auth.logout", "logbook.create", "logbook.edit", "logbook.delete", "admin.create_person"}
@@ -66,6 +74,12 @@ def _request(app: Flask, endpoint: str) -> tuple[str, dict[str, Any]]:
         "admin.create_person": person_form(),
         "admin.edit_person": person_form(name="Mara Oyelaran", email=email, password="", medical_expires="2029-01-31"),
         "dashboard.what_if": {"date": "2026-12-10", "approaches": "6", "holds": "1"},
+        "plan.propose": {"start": "2026-12-01", "end": "2026-12-03"},
+        "plan.save": {"start": "2026-12-01", "end": "2026-12-03"},
+        "plan.accept": {"session_id": "1", "version": "1"},
+        "plan.cancel": {"session_id": "1", "version": "1"},
+        "plan.move": {"session_id": "1", "version": "1", "starts_at": "2026-12-02T10:00"},
+        "plan.flown": {"session_id": "1", "version": "1"},
     }.get(endpoint, {})
     return url, data
 
