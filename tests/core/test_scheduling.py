@@ -278,6 +278,35 @@ def test_generated_plans_keep_every_hard_constraint_and_reach_95_percent_of_the_
             assert ((p.id, n.id) in served) != any(u.pilot == p.id and u.need == n.id for u in result.unmet)
 
 
+def test_regression_plan_reaches_95_percent_where_hypothesis_found_0_77():
+    """The falsifying example hypothesis found for the property above, as a fixed instance.
+
+    Two slots, one aircraft. p0 (60 min) needs practice by day 0 and day 1; p2 and p3 (90 min each) by
+    day 1 (p3's other need, due the day before the first slot, cannot be served). p1 has no needs and an
+    expired medical, so only pilots in need can be safety pilots. The optimum flies p0 on day 0 with p2
+    or p3 as safety pilot and p2 and p3 together (swapping seats) in the 3-hour slot on day 1; the plan
+    used to reach only 333.4 of 433.4.
+    """
+    days = (0, 1, 2)
+    window = tuple(s.Window(at(d, 7), at(d, 15)) for d in days)
+    pilots = [
+        pilot("p0", [need("n0-0", 0), need("n0-1", 1)], medical_until=DAY0 + timedelta(days=2), session_minutes=60),
+        pilot("p1", medical_until=DAY0 - timedelta(days=1), session_minutes=60),
+        pilot("p2", [need("n2-0", 1)], medical_until=DAY0 + timedelta(days=2), session_minutes=90),
+        pilot("p3", [need("n3-0", 1), need("n3-1", -1)], medical_until=DAY0 + timedelta(days=2),
+              session_minutes=90),
+    ]
+    slots = [slot(0, 8, hours=2, vmc=None), slot(1, 8, hours=3, vmc=None)]
+    availability = {rid: window for rid in ("p0", "p1", "p2", "p3", PLANE.id)}
+    prob = problem(pilots, slots, availability=availability)
+    result = s.plan(prob)
+    assert violations(prob, result) == []
+    assert s.objective_of(prob, result.sessions) == pytest.approx(result.objective)
+    best = s.exhaustive_best(prob)
+    assert best == pytest.approx(433.4, abs=0.05)  # the optimum reported with the falsifying example
+    assert result.objective >= 0.95 * best - 1e-6
+
+
 @st.composite
 def feasible_instances(draw):
     """Pilot i can fly slot i (own day, before its due date) with a universal safety pilot; extra availability
