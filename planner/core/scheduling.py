@@ -42,7 +42,14 @@ exhaustive optimum):
 pilot with fewest options), each pilot taking the best-valued feasible option
 (mutual with another pilot in need, or a safety pilot), from three pilot
 orders; then local improvement: remove one or two sessions and re-insert the
-affected and unscheduled pilots greedily, kept when the objective rises.
+affected and unscheduled pilots greedily, kept when the objective rises. On
+instances with up to 40 pilots in need also ejection moves: put in one session
+a pilot could fly (any slot, aircraft, safety pilot or mutual partner) that is
+worth more to its own pilots than what they have, take out every session that
+clashes with it and re-fill greedily; finally, on the best plan, the same move
+followed by local improvement of the perturbed plan (catches chains such as
+"A takes B's slot, B moves to C's, C pairs up with D"), most promising first,
+within a fixed effort bound (``DEEP_WORK`` options evaluated).
 ``exhaustive_best`` finds the true optimum of the same objective by branch and
 bound for small instances (measurement only).
 """
@@ -66,6 +73,7 @@ W_FAIR = 4.0
 SAFETY_PILOT_CERTIFICATES = ("private", "commercial", "atp")
 CERTIFICATES = ("student", "sport", "recreational") + SAFETY_PILOT_CERTIFICATES
 _PF_BOUND_EXTRA = max(W_MUTUAL / 2, 2 * W_FAIR)
+DEEP_WORK = 20_000  # options the final deep ejection pass may evaluate (deterministic effort bound)
 
 
 # ----------------------------------------------------------------- inputs
@@ -393,6 +401,7 @@ class _State:
         self._abs0 = sum(abs(v) for v in model.net0.values())
         self._abs = self._abs0
         self._base = 0.0
+        self.work = 0  # options evaluated by best_option: a deterministic measure of search effort
 
     def copy_sessions(self) -> list[_Session]:
         return list(self.sessions)
@@ -499,6 +508,7 @@ class _State:
     def best_option(self, pid: str):
         best = None
         for val, ses in self.options(pid):
+            self.work += 1
             if best is None or val > best[0]:
                 best = (val, ses)
         return best
@@ -551,7 +561,7 @@ def _improve(st: _State, order: Sequence[str], max_rounds: int, pair_moves: bool
                 continue
             groups = [[ses]]
             if pair_moves:
-                groups += [[ses, other] for other in st.sessions if other is not ses]
+                groups += [[ses, other] for other in st.sessions if other != ses]
             for group in groups:
                 if any(g not in st.sessions for g in group):
                     continue
@@ -606,6 +616,106 @@ def _try_lookahead(st: _State, ses: _Session, order: Sequence[str], current: flo
     return False
 
 
+def _catalogue(model: _Model) -> dict[str, list[_Session]]:
+    """Every session each pilot in need could fly in an empty plan (every slot, aircraft, partner)."""
+    empty = _State(model)
+    return {pid: [ses for _val, ses in empty.options(pid, every_choice=True)] for pid in model.needing}
+
+
+def _resources(ses: _Session) -> set[str]:
+    return {*ses.pfs, *ses.sps, ses.aircraft}
+
+
+def _try_insert(st: _State, cand: _Session, order: Sequence[str], current: float, deep: bool) -> bool:
+    """Ejection move: put ``cand`` in, take out every session that clashes with it, re-fill greedily."""
+    m = st.m
+    before = list(st.sessions)
+    res = _resources(cand)
+    clash = [
+        g for g in st.sessions
+        if set(g.pfs) & set(cand.pfs) or (cand.slot in m.conflicts[g.slot] and _resources(g) & res)
+    ]
+    for g in clash:
+        st.remove(g)
+    st.add(cand)
+    freed = [pf for g in clash for pf in g.pfs if pf not in cand.pfs]
+    unscheduled = _touched(st, clash + [cand], order, freed)
+    mark = len(st.sessions)
+    for attempt in (freed + unscheduled, unscheduled + freed):
+        _fill(st, attempt)
+        if st.objective() > current + 1e-9:
+            return True
+        for extra in st.sessions[mark:]:
+            st.remove(extra)
+    if deep:
+        # the greedy re-fill alone was not enough: improve the perturbed plan locally before judging it
+        _fill(st, freed + unscheduled)
+        _improve(st, order, 1, True)
+        if st.objective() > current + 1e-9:
+            return True
+        _restore(st, before)
+        return False
+    st.remove(cand)
+    for g in clash:
+        st.add(g)
+    return False
+
+
+def _restore(st: _State, sessions: Sequence[_Session]) -> None:
+    for g in list(st.sessions):
+        st.remove(g)
+    for g in sessions:
+        st.add(g)
+
+
+def _pilot_worth(st: _State, pid: str) -> float:
+    ses = st.flying.get(pid)
+    if ses is None:
+        return 0.0
+    return st.m.value[(pid, ses.slot)] + (W_MUTUAL / 2 if len(ses.pfs) == 2 else 0.0)
+
+
+def _promising(st: _State, cand: _Session) -> bool:
+    """Whether ``cand`` gives its own pilots more than they have now (others may lose; the move judges that)."""
+    gain = sum(st.m.value[(pf, cand.slot)] - _pilot_worth(st, pf) for pf in cand.pfs)
+    return gain + (W_MUTUAL if len(cand.pfs) == 2 else 0.0) > 1e-9
+
+
+def _insertion_pass(st: _State, order: Sequence[str], catalogue: dict[str, list[_Session]]) -> bool:
+    improved = False
+    current = st.objective()
+    for pid in order:
+        for cand in catalogue[pid]:
+            if cand in st.sessions or not _promising(st, cand):
+                continue
+            if _try_insert(st, cand, order, current, False):
+                current = st.objective()
+                improved = True
+    return improved
+
+
+def _deep_pass(st: _State, order: Sequence[str], catalogue: dict[str, list[_Session]], budget: int) -> None:
+    """Ejection moves followed by local improvement of the perturbed plan, most promising first.
+
+    Costlier than ``_insertion_pass``: stops once the state has evaluated ``budget`` options.
+    """
+    def gain(cand: _Session) -> float:
+        return sum(st.m.value[(pf, cand.slot)] - _pilot_worth(st, pf) for pf in cand.pfs)
+
+    cands = sorted(
+        (c for pid in order for c in catalogue[pid] if c not in st.sessions and _promising(st, c)),
+        key=lambda c: -gain(c),
+    )
+    current = st.objective()
+    for cand in cands:
+        if st.work >= budget:
+            break
+        if cand in st.sessions or not _promising(st, cand):
+            continue
+        if _try_insert(st, cand, order, current, True):
+            current = st.objective()
+
+
 def _orders(model: _Model) -> list[list[str]]:
     by_deadline = sorted(model.needing, key=lambda p: (_deadline(model, p), len(model.pf_slots[p]), p))
     by_options = sorted(model.needing, key=lambda p: (len(model.pf_slots[p]), _deadline(model, p), p))
@@ -621,19 +731,34 @@ def plan(problem: Problem, max_rounds: int = 3, pair_moves: bool | None = None) 
     """Propose practice sessions for ``problem`` (see the module docstring for constraints and objective).
 
     ``max_rounds`` bounds the local-improvement passes; ``pair_moves`` (default:
-    on for up to 40 pilots in need) also tries removing two sessions at once.
+    on for up to 40 pilots in need) also tries removing two sessions at once,
+    and the ejection moves (``_insertion_pass``, ``_deep_pass``).
     """
     model = _Model(problem)
     if pair_moves is None:
         pair_moves = len(model.needing) <= 40
     best: _State | None = None
+    catalogue = _catalogue(model) if pair_moves else None
+    best_order: Sequence[str] = ()
     for order in _orders(model):
         st = _greedy(model, order)
         _improve(st, order, max_rounds, pair_moves)
+        if catalogue is not None:
+            for _ in range(max_rounds):
+                if not _insertion_pass(st, order, catalogue):
+                    break
+                _improve(st, order, max_rounds, pair_moves)
         if best is None or st.objective() > best.objective() + 1e-9:
-            best = st
+            best, best_order = st, order
     if best is None:
         best = _State(model)
+    elif catalogue is not None:
+        budget = best.work + DEEP_WORK
+        for _ in range(max_rounds):
+            before = best.objective()
+            _deep_pass(best, best_order, catalogue, budget)
+            if best.work >= budget or best.objective() <= before + 1e-9:
+                break
     return _report(model, best)
 
 
