@@ -11,41 +11,20 @@ exclusive (3.6.1), VALARM with ACTION:DISPLAY, DESCRIPTION and TRIGGER
 
 from __future__ import annotations
 
-from collections.abc import Iterator
 from datetime import UTC, date, datetime, timedelta
 from zoneinfo import ZoneInfo
 
 import icalendar
-import pytest
 import vobject
 from sqlalchemy.orm import Session
 
 from planner import CAUTION, planning
-from planner.cli import main
 from planner.db import models, repository
-from planner.db.session import make_engine, make_session_factory
+from tests.demo_fixtures import db, demo_url  # noqa: F401
 
 START, END = date(2026, 12, 1), date(2026, 12, 28)
 NOW = datetime(2026, 12, 1, 6, tzinfo=UTC)
 LATER = datetime(2026, 12, 2, 6, tzinfo=UTC)
-
-
-@pytest.fixture(scope="module")
-def demo_url(tmp_path_factory: pytest.TempPathFactory) -> str:
-    url = f"sqlite:///{tmp_path_factory.mktemp('cal') / 'demo.sqlite3'}"
-    with pytest.MonkeyPatch.context() as mp:
-        mp.setenv("PLANNER_DATABASE_URL", url)
-        assert main(["init"]) == 0 and main(["demo"]) == 0
-    return url
-
-
-@pytest.fixture
-def db(demo_url: str) -> Iterator[Session]:
-    engine = make_engine(demo_url)
-    with make_session_factory(engine)() as s:
-        yield s
-        s.rollback()
-    engine.dispose()
 
 
 def _mara_and_her_session(db: Session) -> tuple[models.Person, models.PracticeSession]:

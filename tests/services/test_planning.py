@@ -8,7 +8,6 @@ reference library) for the airfield.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
 from datetime import UTC, date, datetime, timedelta
 from zoneinfo import ZoneInfo
 
@@ -18,31 +17,12 @@ from astral.sun import sun as astral_sun
 from sqlalchemy.orm import Session
 
 from planner import planning
-from planner.cli import main
 from planner.db import models, practice, repository
-from planner.db.session import make_engine, make_session_factory
+from tests.demo_fixtures import db, demo_url  # noqa: F401
 
 START, END = date(2026, 12, 1), date(2026, 12, 28)
 NOW = datetime(2026, 12, 1, 6, tzinfo=UTC)
 TZ = ZoneInfo("America/Denver")
-
-
-@pytest.fixture(scope="module")
-def demo_url(tmp_path_factory: pytest.TempPathFactory) -> str:
-    url = f"sqlite:///{tmp_path_factory.mktemp('plan') / 'demo.sqlite3'}"
-    with pytest.MonkeyPatch.context() as mp:
-        mp.setenv("PLANNER_DATABASE_URL", url)
-        assert main(["init"]) == 0 and main(["demo"]) == 0
-    return url
-
-
-@pytest.fixture
-def db(demo_url: str) -> Iterator[Session]:
-    engine = make_engine(demo_url)
-    with make_session_factory(engine)() as s:
-        yield s
-        s.rollback()  # every test leaves the module's database as the demo loaded it
-    engine.dispose()
 
 
 def _school(db: Session) -> models.School:
