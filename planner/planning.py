@@ -43,7 +43,7 @@ from planner.core import rules as r
 from planner.core import currency, scheduling, sessions, sun, weather
 from planner.core import logbook as core_logbook
 from planner.db import models, practice, repository
-from planner.db.practice import SessionConflict
+from planner.db.practice import SessionConflict, SessionRejected
 
 __all__ = [
     "NotPlannable",
@@ -73,10 +73,6 @@ LAST_END = time(19, 0)
 PRACTICE_TAS_KT = {"single-engine-land": 100.0, "multi-engine-land": 140.0}
 DEFAULT_TAS_KT = 100.0
 Progress = services.Progress
-
-
-class SessionRejected(ValueError):
-    """A change to a session is not possible; the message says why."""
 
 
 @dataclass(frozen=True)
@@ -394,8 +390,24 @@ def leg_content(plan: sessions.SessionPlan, gaps: Sequence[core_gaps.Gap]) -> di
     }
 
 
+def _local_span(start: datetime, end: datetime, tz_name: str) -> str:
+    tz = ZoneInfo(tz_name)
+    a, b = start.astimezone(tz), end.astimezone(tz)
+    return f"{a:%Y-%m-%d %H:%M}-{b:%H:%M}" if a.date() == b.date() else f"{a:%Y-%m-%d %H:%M}-{b:%Y-%m-%d %H:%M}"
+
+
 def save_proposals(session: Session, proposal: Proposal, *, now: datetime) -> list[models.PracticeSession]:
-    """Store every proposed session of ``proposal`` (status ``proposed``, sequence 0); return the rows."""
+    """Store every proposed session of ``proposal`` (status ``proposed``, sequence 0); return the rows.
+
+    A booking: the people and aircraft are locked first, and a session that
+    clashes with an active session stored meanwhile (another instructor's
+    save, accept or move) raises ``SessionRejected`` naming the person or
+    aircraft and that session; the caller rolls back, so nothing is stored.
+    """
+    people = {proposal.person_ids[k] for ps in proposal.plan.sessions for k in ps.people}
+    planes = {proposal.aircraft_ids[ps.aircraft] for ps in proposal.plan.sessions}
+    if proposal.plan.sessions:
+        practice.lock_for_booking(session, person_ids=people, aircraft_ids=planes)
     rows = []
     for ps in proposal.plan.sessions:
         first = ps.legs[0]
@@ -408,15 +420,25 @@ def save_proposals(session: Session, proposal: Proposal, *, now: datetime) -> li
                 "safety_pilot_id": proposal.person_ids[leg.safety_pilot],
                 **leg_content(proposal.leg_plans[(leg.pilot_flying, leg.safety_pilot)], gs),
             })
+        start, end = ps.slot.start.astimezone(UTC), ps.slot.end.astimezone(UTC)
+        pf_id, sp_id = proposal.person_ids[first.pilot_flying], proposal.person_ids[first.safety_pilot]
+        aircraft_id = proposal.aircraft_ids[ps.aircraft]
+        # Checked one by one after the previous rows were flushed: the proposal's own sessions count too.
+        practice.check_free(
+            session,
+            f"the proposed session {_local_span(start, end, proposal.timezone)} in {ps.aircraft} "
+            f"({_name_of(first.pilot_flying)} with {_name_of(first.safety_pilot)}) clashes",
+            start=start, end=end, pilot_flying_id=pf_id, safety_pilot_id=sp_id, aircraft_id=aircraft_id,
+        )
         row = models.PracticeSession(
             school_id=proposal.school_id,
             airfield_id=proposal.airfield_id,
-            aircraft_id=proposal.aircraft_ids[ps.aircraft],
-            starts_at=ps.slot.start.astimezone(UTC),
-            ends_at=ps.slot.end.astimezone(UTC),
+            aircraft_id=aircraft_id,
+            starts_at=start,
+            ends_at=end,
             timezone=proposal.timezone,
-            pilot_flying_id=proposal.person_ids[first.pilot_flying],
-            safety_pilot_id=proposal.person_ids[first.safety_pilot],
+            pilot_flying_id=pf_id,
+            safety_pilot_id=sp_id,
             is_mutual=ps.is_mutual,
             status="proposed",
             content={"legs": legs, "daylight": ps.slot.daylight, "vmc": ps.slot.vmc},
@@ -428,9 +450,14 @@ def save_proposals(session: Session, proposal: Proposal, *, now: datetime) -> li
             updated_at=now,
         )
         session.add(row)
+        session.flush()
         rows.append(row)
-    session.flush()
     return rows
+
+
+def _name_of(key: str) -> str:
+    """The person's name from a scheduler id ``"<name> #<id>"``."""
+    return key.rsplit(" #", 1)[0]
 
 
 def _load(session: Session, session_id: int, expected_version: int | None) -> models.PracticeSession:
@@ -445,12 +472,34 @@ def _load(session: Session, session_id: int, expected_version: int | None) -> mo
     return row
 
 
+def _load_for_booking(session: Session, session_id: int, expected_version: int | None) -> models.PracticeSession:
+    """The session, its people and aircraft locked against other bookings, read again after the lock."""
+    row = practice.get_session(session, session_id)
+    if row is None:
+        raise LookupError(f"no practice session with id {session_id}")
+    practice.lock_for_booking(session, person_ids=row.people_ids, aircraft_ids=[row.aircraft_id])
+    session.refresh(row)  # a competing change may have committed while this one waited for the lock
+    return _load(session, session_id, expected_version)
+
+
 def accept_session(session: Session, session_id: int, *, expected_version: int | None = None,
                    now: datetime) -> models.PracticeSession:
-    """Accept a proposed session (it then counts as a booking and in the balance)."""
-    row = _load(session, session_id, expected_version)
+    """Accept a proposed session (it then counts as a booking and in the balance).
+
+    Refused (``SessionRejected``, naming the person or aircraft and the other
+    session) when an accepted session holds one of its people or its aircraft
+    then. Only accepted ones count here: a proposed session overlapping this
+    one can only date from before bookings were checked, and of two such the
+    first accepted wins.
+    """
+    row = _load_for_booking(session, session_id, expected_version)
     if row.status != "proposed":
         raise SessionRejected(f"practice session {session_id} is {row.status}; only a proposed one can be accepted")
+    practice.check_free(
+        session, f"practice session {session_id} cannot be accepted", start=row.starts_at, end=row.ends_at,
+        pilot_flying_id=row.pilot_flying_id, safety_pilot_id=row.safety_pilot_id, aircraft_id=row.aircraft_id,
+        exclude_id=row.id, against=("accepted",),
+    )
     row.status = "accepted"
     practice.bump(session, row, now)
     return row
@@ -475,19 +524,16 @@ def move_session(session: Session, session_id: int, new_start: datetime, *, expe
     """
     if new_start.tzinfo is None:
         raise SessionRejected("new start must be timezone-aware")
-    row = _load(session, session_id, expected_version)
+    row = _load_for_booking(session, session_id, expected_version)
     if row.status not in practice.ACTIVE:
         raise SessionRejected(f"practice session {session_id} is {row.status}; it cannot be moved")
     length = row.ends_at - row.starts_at
     start, end = new_start.astimezone(UTC), new_start.astimezone(UTC) + length
-    clash = practice.overlapping(
-        session, start=start, end=end, person_ids=row.people_ids, aircraft_id=row.aircraft_id, exclude_id=row.id
+    practice.check_free(
+        session, f"practice session {session_id} cannot move to {new_start.isoformat(timespec='minutes')}",
+        start=start, end=end, pilot_flying_id=row.pilot_flying_id, safety_pilot_id=row.safety_pilot_id,
+        aircraft_id=row.aircraft_id, exclude_id=row.id,
     )
-    if clash:
-        raise SessionRejected(
-            f"practice session {session_id} cannot move to {new_start.isoformat(timespec='minutes')}: "
-            f"session {clash[0].id} already holds a person or the aircraft then"
-        )
     row.starts_at, row.ends_at = start, end
     practice.bump(session, row, now)
     return row

@@ -154,7 +154,10 @@ def cmd_plan(args: argparse.Namespace) -> int:
             raise CommandError(str(exc), EXIT_NOT_FOUND) from None
         except planning.SessionRejected as exc:
             raise CommandError(str(exc), EXIT_BAD_INPUT) from None
-        saved = planning.save_proposals(session, prop, now=now) if args.save else []
+        try:
+            saved = planning.save_proposals(session, prop, now=now) if args.save else []
+        except planning.SessionRejected as exc:
+            raise CommandError(f"{exc}; nothing was stored, run it again to plan around it", EXIT_BAD_INPUT) from None
         if args.json:
             print(json.dumps(_plan_json(prop, saved), indent=2, ensure_ascii=False))
         else:

@@ -3,14 +3,34 @@
 Like ``repository``, nothing here commits. Session changes go through
 ``bump`` (``sequence`` and ``version`` raised together; a change made from a
 stale copy raises ``SessionConflict``).
+
+Booking (a session coming to hold people and an aircraft over a time) is
+serialised per person and aircraft: ``lock_for_booking`` first, then
+``check_free``, then the write, then the caller commits. The lock is what
+makes the check hold when two instructors book at the same moment:
+
+* PostgreSQL: ``SELECT ... FOR NO KEY UPDATE`` on the aircraft rows, then the
+  people rows, each in id order (one global order, so two bookings never wait
+  for each other in a cycle). Two bookings that share a person or an
+  aircraft share a locked row, so the second waits until the first commits
+  or rolls back; under READ COMMITTED (the default) its overlap query then
+  sees the first one's session. ``NO KEY UPDATE`` rather than ``UPDATE``
+  leaves inserts that merely reference the row (a logbook entry of that
+  pilot) free to proceed.
+* SQLite: a no-op ``UPDATE`` of the aircraft rows as the transaction's first
+  write takes the database write lock before the overlap query runs (the
+  driver starts the transaction on that statement); other bookings wait for
+  it up to the connection's busy timeout.
 """
 
 from __future__ import annotations
 
 from collections.abc import Iterable
 from datetime import datetime
+from zoneinfo import ZoneInfo
 
-from sqlalchemy import or_, select
+from sqlalchemy import or_, select, update
+from sqlalchemy.exc import OperationalError
 from sqlalchemy.orm import Session
 from sqlalchemy.orm.exc import StaleDataError
 
@@ -22,6 +42,10 @@ BALANCE = ("accepted", "flown")  # statuses that count in the who-flew-for-whom 
 
 class SessionConflict(RuntimeError):
     """The session was changed elsewhere since it was loaded (stale version)."""
+
+
+class SessionRejected(ValueError):
+    """A change to a session is not possible; the message says why (``planning.SessionRejected``)."""
 
 
 def windows(
@@ -64,21 +88,72 @@ def person_sessions(session: Session, person_id: int) -> list[models.PracticeSes
     ))
 
 
-def overlapping(
-    session: Session, *, start: datetime, end: datetime, person_ids: Iterable[int], aircraft_id: int,
-    exclude_id: int | None = None,
-) -> list[models.PracticeSession]:
-    """Active sessions over ``[start, end)`` that use one of these people or this aircraft."""
-    person_ids = list(person_ids)
+def lock_for_booking(session: Session, *, person_ids: Iterable[int], aircraft_ids: Iterable[int]) -> None:
+    """Hold these people and aircraft against other bookings until the transaction ends (see the module doc).
+
+    Call it before reading what is booked, and before any other write of the
+    transaction. On SQLite a lock not had within the busy timeout raises
+    ``SessionRejected`` (try again) rather than a database error.
+    """
+    people, planes = sorted(set(person_ids)), sorted(set(aircraft_ids))
+    A, P = models.Aircraft, models.Person
+    if session.get_bind().dialect.name == "sqlite":
+        try:
+            session.execute(update(A.__table__).where(A.__table__.c.id.in_(planes or [0])).values(id=A.__table__.c.id))
+        except OperationalError as exc:
+            if "locked" not in str(exc.orig):
+                raise
+            raise SessionRejected("the database is busy with another booking; try again in a moment") from None
+        return
+    session.execute(select(A.id).where(A.id.in_(planes)).order_by(A.id).with_for_update(key_share=True)).all()
+    session.execute(select(P.id).where(P.id.in_(people)).order_by(P.id).with_for_update(key_share=True)).all()
+
+
+def _when(row: models.PracticeSession) -> str:
+    tz = ZoneInfo(row.timezone)
+    a, b = row.starts_at.astimezone(tz), row.ends_at.astimezone(tz)
+    end = b.strftime("%H:%M") if b.date() == a.date() else b.strftime("%Y-%m-%d %H:%M")
+    return f"{a:%Y-%m-%d %H:%M}-{end} {row.timezone}"
+
+
+def check_free(
+    session: Session, what: str, *, start: datetime, end: datetime, pilot_flying_id: int, safety_pilot_id: int,
+    aircraft_id: int, exclude_id: int | None = None, against: Iterable[str] = ACTIVE,
+) -> None:
+    """Raise ``SessionRejected`` when a session with status in ``against`` holds one of these over ``[start, end)``.
+
+    The message starts with ``what`` (the booking refused) and names the
+    clashing session (id, status, local times) and each person (with their
+    seat there) or the aircraft it already holds. Call ``lock_for_booking``
+    first in the same transaction, or two bookings can both pass.
+    """
+    against = list(against)
+    people = (pilot_flying_id, safety_pilot_id)
     P = models.PracticeSession
     q = (
         select(P)
-        .where(P.status.in_(ACTIVE), P.starts_at < end, P.ends_at > start)
-        .where(or_(P.aircraft_id == aircraft_id, P.pilot_flying_id.in_(person_ids), P.safety_pilot_id.in_(person_ids)))
+        .where(P.status.in_(against), P.starts_at < end, P.ends_at > start)
+        .where(or_(P.aircraft_id == aircraft_id, P.pilot_flying_id.in_(people), P.safety_pilot_id.in_(people)))
+        .order_by(P.starts_at, P.id)
     )
     if exclude_id is not None:
         q = q.where(P.id != exclude_id)
-    return list(session.scalars(q))
+    clash = session.scalars(q.limit(1).execution_options(populate_existing=True)).first()
+    if clash is None:
+        return
+    held = []
+    if clash.aircraft_id == aircraft_id:
+        held.append(f"aircraft {clash.aircraft.registration}")
+    for pid in people:
+        if pid in clash.people_ids:
+            seat = "safety pilot" if clash.safety_pilot_id == pid else "pilot flying"
+            if clash.is_mutual:
+                seat = "mutual session"
+            person = clash.safety_pilot if clash.safety_pilot_id == pid else clash.pilot_flying
+            held.append(f"{person.name} ({seat})")
+    raise SessionRejected(
+        f"{what}: practice session {clash.id} ({clash.status}, {_when(clash)}) already holds {' and '.join(held)} then"
+    )
 
 
 def schools(session: Session) -> list[models.School]:

@@ -169,8 +169,14 @@ def save():  # type: ignore[no-untyped-def]
     if proposal is None:
         return _index(school, form=form, status=400)
     session = db_session()
-    rows = planning.save_proposals(session, proposal, now=now())
-    session.commit()
+    try:
+        rows = planning.save_proposals(session, proposal, now=now())
+        session.commit()
+    except planning.SessionRejected as exc:
+        # Someone booked one of these people or aircraft between this proposal and its save.
+        session.rollback()
+        form.end.errors = [*form.end.errors, f"Not saved: {exc}. Nothing was stored; propose again to plan around it."]
+        return _index(school, form=form, status=409)
     flash(f"{len(rows)} proposed session{'s' if len(rows) != 1 else ''} saved. Accept each one to book it.")
     return redirect(url_for("plan.index"))
 

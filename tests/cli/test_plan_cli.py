@@ -82,3 +82,40 @@ def test_bad_input_gets_a_message_and_an_exit_status(demo, capsys) -> None:  # t
     assert "no pilot with id 999" in capsys.readouterr().err
     with pytest.raises(SystemExit):
         main(["plan", "--school", "1", "--from", "2026-13-01", "--to", TO])
+
+
+def test_plan_save_that_clashes_with_a_booking_made_meanwhile_exits_2_and_stores_nothing(  # type: ignore[no-untyped-def]
+    demo, capsys, monkeypatch
+) -> None:
+    import os
+
+    from sqlalchemy import func, select
+
+    from planner import planning
+    from planner.db import models
+    from planner.db.session import make_engine, make_session_factory
+
+    real, proposals = planning.propose_sessions, []
+
+    def remember(*args, **kwargs):  # type: ignore[no-untyped-def]
+        proposals.append(real(*args, **kwargs))
+        return proposals[-1]
+
+    monkeypatch.setattr(planning, "propose_sessions", remember)
+    assert _plan(capsys, demo, "--save")["saved"]  # another instructor's run saves first
+    engine = make_engine(os.environ["PLANNER_DATABASE_URL"])
+
+    def count() -> int:
+        with make_session_factory(engine)() as s:
+            return s.scalar(select(func.count()).select_from(models.PracticeSession))
+
+    before = count()
+    # Ours was computed from the same state before theirs was committed: every session of it is taken now.
+    monkeypatch.setattr(planning, "propose_sessions", lambda *args, **kwargs: proposals[0])
+    status = main(["plan", "--school", str(demo["school"]), "--from", FROM, "--to", TO, "--now", NOW, "--save"])
+    err = capsys.readouterr().err
+    assert status == 2
+    assert "planner plan: the proposed session 2026-12-" in err and " clashes: practice session " in err
+    assert "already holds" in err and "nothing was stored" in err
+    assert count() == before
+    engine.dispose()

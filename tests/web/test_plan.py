@@ -7,15 +7,20 @@ person or aircraft is never in two active sessions at once.
 
 from __future__ import annotations
 
+import html
 import re
-from datetime import UTC, datetime
+from datetime import UTC, date, datetime
 from zoneinfo import ZoneInfo
 
+import pytest
 from flask import Flask
 from flask.testing import FlaskClient
 
+from planner import planning
+from planner.db import models, repository
+from planner.web import db_session
 from tests.web.dash_fixtures import OTHER_SCHOOL, add_other_school, csrf, person_id, sign_in, sign_in_as
-from tests.web.plan_fixtures import papp, plan_database, session_with, stored_sessions  # noqa: F401
+from tests.web.plan_fixtures import NOW, papp, plan_database, session_with, stored_sessions  # noqa: F401
 
 
 def _staff(app: Flask) -> tuple[FlaskClient, str]:
@@ -60,6 +65,29 @@ def test_saving_stores_what_the_proposal_showed(papp: Flask) -> None:
     assert response.status_code == 302 and response.headers["Location"].endswith("/plan")
     new = [s for s in stored_sessions(papp) if s["id"] not in before]
     assert len(new) == shown and all(s["status"] == "proposed" and s["version"] == 1 for s in new)
+
+
+def test_a_save_that_another_instructor_booked_first_is_refused_with_the_clash_and_stores_nothing(
+    papp: Flask, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    client, token = _staff(papp)
+    data = {"csrf_token": token, "start": "2026-12-14", "end": "2026-12-31"}
+    with papp.app_context():  # our proposal, computed before the other instructor's save below
+        school = repository.find_by(db_session(), models.School, slug="juniper-ridge")
+        ours = planning.propose_sessions(db_session(), school.id, date(2026, 12, 14), date(2026, 12, 31), now=NOW)
+    assert ours.plan.sessions
+    assert client.post("/plan/save", data=data).status_code == 302  # the other instructor's save lands first
+    before = stored_sessions(papp)
+    monkeypatch.setattr(planning, "propose_sessions", lambda *args, **kwargs: ours)
+    response = client.post("/plan/save", data=data)
+    assert response.status_code == 409
+    error = re.search(r'<p class="field-error" id="end-error">([^<]*)</p>', response.get_data(as_text=True))
+    assert error, "the refusal is shown at the form"
+    text = html.unescape(error.group(1))
+    assert text.startswith("Not saved: the proposed session 2026-12-") and "clashes: practice session " in text
+    assert re.search(r"already holds (aircraft N\w+|[A-Z][a-z]+ [A-Z][a-z]+ \([a-z ]+\))", text), text
+    assert text.endswith("Nothing was stored; propose again to plan around it.")
+    assert stored_sessions(papp) == before
 
 
 def test_bad_dates_get_a_message_at_the_field_and_nothing_is_stored(papp: Flask) -> None:
@@ -115,7 +143,10 @@ def test_move_keeps_the_length_and_refuses_bad_times_and_clashes(papp: Flask) ->
     assert first["aircraft"] == second["aircraft"]
     clash_start = second["starts_at"].astimezone(ZoneInfo("America/Denver")).strftime("%Y-%m-%dT%H:%M")
     response = client.post("/plan/move", data={**base, "starts_at": clash_start})
-    assert response.status_code == 400 and "already holds a person or the aircraft" in response.get_data(as_text=True)
+    text = response.get_data(as_text=True)
+    # The message names the clashing session and what it holds (the aircraft, here).
+    assert response.status_code == 400 and f"practice session {second['id']} (proposed, " in text
+    assert "already holds aircraft N417JR" in text
     assert stored_sessions(papp)[0]["starts_at"] == first["starts_at"]
     moved = client.post("/plan/move", data={**base, "starts_at": "2026-12-21T10:00"})
     assert moved.status_code == 302
