@@ -1,8 +1,9 @@
 """Backup and restore of a whole school as one JSON document (format in ``docs/backup.md``).
 
 ``backup_school`` reads a school (airfields it uses, aircraft, training
-devices, people with roles, ratings, medical and settings, availability, and
-every pilot's logbook in the interchange format v1) into a canonical text:
+devices, people with roles, ratings, medical, settings and personal minimums,
+availability, practice sessions, and every pilot's logbook in the interchange
+format v1) into a canonical text:
 the same database always gives the same bytes, and backup -> restore into an
 empty database -> backup gives byte-identical output. ``restore_school``
 checks the whole document first and stages every row in the caller's
@@ -13,6 +14,8 @@ Password hashes are left out unless asked for (``include_password_hashes``):
 a backup file then carries no credential, and restored accounts cannot sign
 in until someone sets a password. Entry revision history is not kept; deleted
 entries are (as a second interchange document), restored as deleted.
+Version 1 documents (without practice sessions and personal minimums) still
+restore.
 """
 
 from __future__ import annotations
@@ -25,11 +28,17 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 from sqlalchemy.orm import Session
 
 from planner.core.logbook import CATEGORIES, Logbook
-from planner.db import models, repository
+from planner.db import models, practice, repository
 from planner.export import interchange
 
 FORMAT = "planner-school-backup"
-FORMAT_VERSION = 1
+FORMAT_VERSION = 2
+READABLE_VERSIONS = (1, 2)  # version 1: no practice_sessions, no personal minimums
+MINIMUMS = (  # person key, lowest, highest (the table's check constraints)
+    ("min_ceiling_ft", 0, 10_000),
+    ("min_visibility_hundredths_sm", 0, 1_000),
+    ("min_crosswind_kt", 0, 50),
+)
 ROLES = ("admin", "instructor", "pilot")
 
 __all__ = ["FORMAT", "FORMAT_VERSION", "BackupError", "backup_school", "restore_school"]
@@ -67,8 +76,10 @@ def backup_school(session: Session, school_id: int, *, include_password_hashes: 
     aircraft = repository.school_aircraft(session, school.id)
     devices = repository.school_devices(session, school.id)
     people = repository.school_people_by_id(session, school.id)
+    sessions = practice.school_sessions(session, school.id)
     airfields = {a.ident: a for a in [school.home_airfield, *(x.home_airfield for x in aircraft),
-                                      *(p.home_airfield for p in people)] if a is not None}
+                                      *(p.home_airfield for p in people), *(r.airfield for r in sessions)]
+                 if a is not None}
     refs = {p.id: f"person-{n}" for n, p in enumerate(people, start=1)}
 
     people_out = []
@@ -89,6 +100,7 @@ def backup_school(session: Session, school_id: int, *, include_password_hashes: 
             "timezone": person.timezone,
             "rule_sets": list(person.rule_sets or []),
             "practice_targets": _canonical(person.practice_targets or {}),
+            **{key: getattr(person, key) for key, _, _ in MINIMUMS},
             "created_at": _instant(person.created_at),
         }
         if include_password_hashes:
@@ -142,8 +154,41 @@ def backup_school(session: Session, school_id: int, *, include_password_hashes: 
         ],
         "people": people_out,
         "availability": windows,
+        "practice_sessions": [_session_out(r, refs) for r in sorted(sessions, key=lambda r: (r.starts_at, r.uid))],
     }
     return json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
+
+
+def _session_out(row: models.PracticeSession, refs: dict[int, str]) -> dict[str, Any]:
+    """A practice session with people as ``ref``s (in its legs too) instead of database ids."""
+
+    def ref(person_id: Any) -> str:
+        if person_id not in refs:
+            raise LookupError(f"practice session {row.uid} names person {person_id}, who is not of this school")
+        return refs[person_id]
+
+    content = _canonical(row.content or {})
+    for leg in content.get("legs", []):
+        leg["pilot_flying"] = ref(leg.pop("pilot_flying_id", None))
+        leg["safety_pilot"] = ref(leg.pop("safety_pilot_id", None))
+    return {
+        "uid": row.uid,
+        "status": row.status,
+        "starts_at": _instant(row.starts_at),
+        "ends_at": _instant(row.ends_at),
+        "timezone": row.timezone,
+        "airfield": row.airfield.ident,
+        "aircraft": row.aircraft.registration,
+        "pilot_flying": ref(row.pilot_flying_id),
+        "safety_pilot": ref(row.safety_pilot_id),
+        "is_mutual": row.is_mutual,
+        "content": _canonical(content),
+        "explanation": row.explanation or "",
+        "sequence": row.sequence,
+        "version": row.version,
+        "created_at": _instant(row.created_at),
+        "updated_at": _instant(row.updated_at),
+    }
 
 
 # ---------------------------------------------------------------- restore
@@ -173,7 +218,9 @@ class _Doc:
         return value
 
     @staticmethod
-    def number(value: Any, where: str, low: float, high: float, *, whole: bool = False) -> Any:
+    def number(value: Any, where: str, low: float, high: float, *, whole: bool = False, optional: bool = False) -> Any:
+        if value is None and optional:
+            return None
         kinds = (int,) if whole else (int, float)
         if isinstance(value, bool) or not isinstance(value, kinds) or not (low <= value <= high):
             raise BackupError(f"{where}: must be a {'whole ' if whole else ''}number from {low} to {high}")
@@ -255,10 +302,14 @@ def restore_school(session: Session, text: str, *, now: datetime | None = None) 
         doc = json.loads(text)
     except json.JSONDecodeError as exc:
         raise BackupError(f"not valid JSON: line {exc.lineno}, column {exc.colno}: {exc.msg}") from None
-    d.obj(doc, "top level", ("format", "format_version", "school", "airfields", "aircraft", "devices", "people", "availability"))
-    if doc["format"] != FORMAT or doc["format_version"] != FORMAT_VERSION:
-        raise BackupError(f"format: this is not a {FORMAT} version {FORMAT_VERSION} document")
-    for key in ("airfields", "aircraft", "devices", "people", "availability"):
+    d.obj(doc, "top level", ("format", "format_version"), _SECTIONS + ("school", "practice_sessions"))
+    version = doc["format_version"]
+    if doc["format"] != FORMAT or isinstance(version, bool) or version not in READABLE_VERSIONS:
+        raise BackupError(f"format: this is not a {FORMAT} document of version "
+                          f"{' or '.join(str(v) for v in READABLE_VERSIONS)}")
+    v2 = version >= 2
+    d.obj(doc, "top level", ("format", "format_version", "school", *_SECTIONS, *(("practice_sessions",) if v2 else ())))
+    for key in _SECTIONS + (("practice_sessions",) if v2 else ()):
         if not isinstance(doc[key], list):
             raise BackupError(f"{key}: must be a list")
 
@@ -339,9 +390,10 @@ def restore_school(session: Session, text: str, *, now: datetime | None = None) 
     people: dict[str, models.Person] = {}
     logbooks: list[tuple[str, models.Person, Logbook | None, Logbook | None, dict[str, Any]]] = []
     emails: set[str] = set()
+    person_keys = _PERSON_KEYS + (tuple(k for k, _, _ in MINIMUMS) if v2 else ())
     for i, spec in enumerate(doc["people"]):
         where = f"people[{i}]"
-        d.obj(spec, where, _PERSON_KEYS, ("password_hash", "logbook", "deleted_entries"))
+        d.obj(spec, where, person_keys, ("password_hash", "logbook", "deleted_entries"))
         ref = d.text(spec["ref"], f"{where}.ref", limit=64)
         if ref in people:
             raise BackupError(f"{where}.ref: {ref!r} is listed twice")
@@ -378,6 +430,8 @@ def restore_school(session: Session, text: str, *, now: datetime | None = None) 
             timezone=d.zone(spec["timezone"], f"{where}.timezone", optional=True),
             rule_sets=list(spec["rule_sets"]),
             practice_targets=spec["practice_targets"],
+            **{key: d.number(spec[key], f"{where}.{key}", low, high, whole=True, optional=True)
+               for key, low, high in MINIMUMS if v2},
             created_at=d.instant(spec["created_at"], f"{where}.created_at"),
         )
         session.add(person)
@@ -427,4 +481,157 @@ def restore_school(session: Session, text: str, *, now: datetime | None = None) 
             note=d.text(spec["note"], f"{where}.note", limit=10_000, empty=True),
         ))
     session.flush()
+
+    if v2:
+        _restore_sessions(session, doc["practice_sessions"], school, airfields, aircraft, people)
     return school.id
+
+
+_SECTIONS = ("airfields", "aircraft", "devices", "people", "availability")
+_SESSION_KEYS = ("uid", "status", "starts_at", "ends_at", "timezone", "airfield", "aircraft", "pilot_flying",
+                 "safety_pilot", "is_mutual", "content", "explanation", "sequence", "version", "created_at", "updated_at")
+
+
+def _restore_sessions(
+    session: Session, specs: list[Any], school: models.School, airfields: dict[str, models.Airfield],
+    aircraft: dict[str, models.Aircraft], people: dict[str, models.Person],
+) -> None:
+    """Check and stage the practice sessions; two active ones holding the same person or aircraft at once are refused.
+
+    The school, its people and aircraft are new in this transaction, so no
+    other booking can reach them: the clash check runs over the document.
+    """
+    d = _Doc
+    uids: set[str] = set()
+    held: list[tuple[str, str, datetime, datetime, int]] = []  # (resource, words, start, end, index)
+    rows = []
+    for i, spec in enumerate(specs):
+        where = f"practice_sessions[{i}]"
+        d.obj(spec, where, _SESSION_KEYS)
+        uid = d.text(spec["uid"], f"{where}.uid", limit=128)
+        if uid in uids or repository.find_by(session, models.PracticeSession, uid=uid) is not None:
+            raise BackupError(f"{where}.uid: {uid!r} already exists")
+        uids.add(uid)
+        status = d.one_of(spec["status"], f"{where}.status", models.SESSION_STATUSES)
+        starts, ends = d.instant(spec["starts_at"], f"{where}.starts_at"), d.instant(spec["ends_at"], f"{where}.ends_at")
+        if ends <= starts:
+            raise BackupError(f"{where}.ends_at: must be after starts_at")
+        if spec["airfield"] not in airfields:
+            raise BackupError(f"{where}.airfield: airfield {spec['airfield']!r} is not in this document's airfields")
+        if spec["aircraft"] not in aircraft:
+            raise BackupError(f"{where}.aircraft: {spec['aircraft']!r} is not in this document's aircraft")
+        pf, sp = (_person_ref(spec[k], f"{where}.{k}", people) for k in ("pilot_flying", "safety_pilot"))
+        if pf is sp:
+            raise BackupError(f"{where}.safety_pilot: must be another person than the pilot flying")
+        mutual = d.flag(spec["is_mutual"], f"{where}.is_mutual")
+        content = _session_content(spec["content"], f"{where}.content", people,
+                                   [(pf, sp), (sp, pf)] if mutual else [(pf, sp)])
+        row = models.PracticeSession(
+            school_id=school.id, airfield=airfields[spec["airfield"]], aircraft=aircraft[spec["aircraft"]],
+            starts_at=starts, ends_at=ends, timezone=d.zone(spec["timezone"], f"{where}.timezone"),
+            pilot_flying=pf, safety_pilot=sp, is_mutual=mutual, status=status, content=content,
+            explanation=d.text(spec["explanation"], f"{where}.explanation", limit=100_000, empty=True),
+            uid=uid,
+            sequence=d.number(spec["sequence"], f"{where}.sequence", 0, 1_000_000, whole=True),
+            version=d.number(spec["version"], f"{where}.version", 1, 1_000_000, whole=True),
+            created_at=d.instant(spec["created_at"], f"{where}.created_at"),
+            updated_at=d.instant(spec["updated_at"], f"{where}.updated_at"),
+        )
+        rows.append(row)
+        if status in practice.ACTIVE:
+            held += [(f"a/{spec['aircraft']}", f"aircraft {spec['aircraft']}", starts, ends, i),
+                     (f"p/{spec['pilot_flying']}", f"{pf.name} ({spec['pilot_flying']})", starts, ends, i),
+                     (f"p/{spec['safety_pilot']}", f"{sp.name} ({spec['safety_pilot']})", starts, ends, i)]
+    _refuse_clashes(held)
+    for row in rows:
+        session.add(row)
+    session.flush()
+
+
+def _person_ref(value: Any, where: str, people: dict[str, models.Person]) -> models.Person:
+    if not isinstance(value, str) or value not in people:
+        raise BackupError(f"{where}: {value!r} is not a person ref of this document")
+    return people[value]
+
+
+def _refuse_clashes(held: list[tuple[str, str, datetime, datetime, int]]) -> None:
+    """Refuse two active sessions holding one person or aircraft over overlapping times (the later one is named)."""
+    held.sort(key=lambda h: (h[0], h[2], h[4]))
+    last: tuple[str, str, datetime, datetime, int] | None = None  # per resource: the one reaching furthest
+    for h in held:
+        if last is not None and last[0] == h[0] and h[2] < last[3]:
+            first, second = sorted((last[4], h[4]))
+            raise BackupError(
+                f"practice_sessions[{second}]: {h[1]} is also held by practice_sessions[{first}] at that time; "
+                "two proposed or accepted sessions cannot hold one person or aircraft at once"
+            )
+        if last is None or last[0] != h[0] or h[3] > last[3]:
+            last = h
+
+
+def _session_content(value: Any, where: str, people: dict[str, models.Person],
+                     seats: list[tuple[models.Person, models.Person]]) -> dict[str, Any]:
+    """The session's content with person refs in its legs turned back into database ids.
+
+    Checks what the pages, calendars and logbook drafts read: each leg's seats
+    (the session's own, swapped on a mutual session's second leg), items with
+    a title and minutes, the briefing's figures, needs and credits.
+    """
+    d = _Doc
+    content = d.obj(value, where, (), ("legs", "daylight", "vmc"))
+    out = json.loads(json.dumps(content))
+    if "daylight" in content:
+        d.flag(content["daylight"], f"{where}.daylight")
+    if content.get("vmc") is not None:
+        d.number(content["vmc"], f"{where}.vmc", 0, 1)
+    legs = content.get("legs", [])
+    if not isinstance(legs, list) or ("legs" in content and len(legs) != len(seats)):
+        raise BackupError(f"{where}.legs: must be a list of {len(seats)} leg{'s' if len(seats) > 1 else ''}")
+    for n, (leg, (pf, sp)) in enumerate(zip(legs, seats)):
+        at = f"{where}.legs[{n}]"
+        d.obj(leg, at, ("pilot_flying", "safety_pilot", "items", "total_minutes"),
+              ("briefing", "minutes_basis", "needs", "credits"))
+        if _person_ref(leg["pilot_flying"], f"{at}.pilot_flying", people) is not pf \
+                or _person_ref(leg["safety_pilot"], f"{at}.safety_pilot", people) is not sp:
+            raise BackupError(f"{at}: the seats must be the session's own"
+                              + (" (swapped on the second leg)" if n else ""))
+        d.number(leg["total_minutes"], f"{at}.total_minutes", 0, 24 * 60, whole=True)
+        if not isinstance(leg["items"], list):
+            raise BackupError(f"{at}.items: must be a list")
+        for k, item in enumerate(leg["items"]):
+            it = f"{at}.items[{k}]"
+            if not isinstance(item, dict):
+                raise BackupError(f"{it}: must be an object")
+            d.text(item.get("title"), f"{it}.title", limit=1_000)
+            d.number(item.get("minutes"), f"{it}.minutes", 0, 24 * 60, whole=True)
+            d.text(item.get("kind", "-"), f"{it}.kind", limit=64)
+            _texts(item.get("steps", []), f"{it}.steps")
+        brief = leg.get("briefing")
+        if brief:
+            if not isinstance(brief, dict):
+                raise BackupError(f"{at}.briefing: must be an object")
+            for key in ("tas_kt", "standard_rate_bank_deg", "standard_rate_radius_ft"):
+                d.number(brief.get(key), f"{at}.briefing.{key}", 0, 1e9)
+            if not isinstance(brief.get("banks", []), list):
+                raise BackupError(f"{at}.briefing.banks: must be a list")
+            for k, bank in enumerate(brief.get("banks", [])):
+                if not isinstance(bank, dict):
+                    raise BackupError(f"{at}.briefing.banks[{k}]: must be an object")
+                for key in ("bank_deg", "load_factor", "stall_speed_increase_percent", "turn_radius_ft"):
+                    d.number(bank.get(key), f"{at}.briefing.banks[{k}].{key}", 0, 1e9)
+            _texts(brief.get("notes", []), f"{at}.briefing.notes")
+        d.text(leg.get("minutes_basis", "-"), f"{at}.minutes_basis", limit=200)
+        _texts(leg.get("needs", []), f"{at}.needs")
+        credits = leg.get("credits", {})
+        if not isinstance(credits, dict):
+            raise BackupError(f"{at}.credits: must be an object")
+        for unit, amount in credits.items():
+            d.number(amount, f"{at}.credits.{unit}", 0, 1e6)
+        out["legs"][n] = {"pilot_flying_id": pf.id, "safety_pilot_id": sp.id,
+                          **{k: v for k, v in out["legs"][n].items() if k not in ("pilot_flying", "safety_pilot")}}
+    return out
+
+
+def _texts(value: Any, where: str) -> None:
+    if not isinstance(value, list) or not all(isinstance(v, str) and len(v) <= 2_000 for v in value):
+        raise BackupError(f"{where}: must be a list of texts")

@@ -22,7 +22,7 @@ def _school_id(session, value: str) -> int:  # type: ignore[no-untyped-def]
 
 
 def cmd_backup(args: argparse.Namespace) -> int:
-    """Write a whole school (people, aircraft, devices, availability, every logbook) to one JSON file."""
+    """Write a whole school (people, aircraft, devices, availability, practice sessions, every logbook) to one JSON file."""
     from planner import backup
 
     with open_session() as session:
