@@ -304,7 +304,7 @@ def restore_school(session: Session, text: str, *, now: datetime | None = None) 
         raise BackupError(f"not valid JSON: line {exc.lineno}, column {exc.colno}: {exc.msg}") from None
     d.obj(doc, "top level", ("format", "format_version"), _SECTIONS + ("school", "practice_sessions"))
     version = doc["format_version"]
-    if doc["format"] != FORMAT or isinstance(version, bool) or version not in READABLE_VERSIONS:
+    if doc["format"] != FORMAT or type(version) is not int or version not in READABLE_VERSIONS:
         raise BackupError(f"format: this is not a {FORMAT} document of version "
                           f"{' or '.join(str(v) for v in READABLE_VERSIONS)}")
     v2 = version >= 2

@@ -55,12 +55,16 @@ def race_engine(request: pytest.FixtureRequest, tmp_path: Path) -> Iterator[Engi
 
     SQLite: a fresh file. PostgreSQL: this module's database; each test builds its own school in it.
     """
+    extra = {}
     if request.param == "sqlite":
         url = f"sqlite:///{tmp_path / 'race.sqlite3'}"
         migrate.upgrade(url)
+        # 50 writers queue for SQLite's one write lock; the driver's 5 s wait could run out on a loaded
+        # machine, which gives "busy, try again" (tested below) rather than the clash these tests look for.
+        extra = {"connect_args": {"timeout": 60}}
     else:
         url = request.getfixturevalue("pg_migrated_url")
-    engine = make_engine(url, poolclass=NullPool)
+    engine = make_engine(url, poolclass=NullPool, **extra)
     yield engine
     engine.dispose()
 
@@ -384,3 +388,25 @@ def test_fifty_saves_of_one_entry_from_the_same_version_land_once(race_engine: E
     with make_session_factory(race_engine)() as s:
         row = repository.find_entry(s, pilot_id, ENTRY.id)
         assert (row.holds, row.version, len(repository.history(s, row))) == (winner.result, 2, 1)
+
+
+def test_a_sqlite_booking_that_cannot_get_the_write_lock_is_refused_with_a_message(tmp_path: Path) -> None:
+    import sqlite3
+
+    path = tmp_path / "busy.sqlite3"
+    migrate.upgrade(f"sqlite:///{path}")
+    engine = make_engine(f"sqlite:///{path}", poolclass=NullPool, connect_args={"timeout": 0.05})
+    school = build_school(engine, people=2, aircraft=1)
+    holder = sqlite3.connect(path)
+    try:
+        holder.execute("BEGIN IMMEDIATE")  # another writer holds the database
+        with make_session_factory(engine)() as s:
+            with pytest.raises(planning.SessionRejected, match="the database is busy with another booking; try again"):
+                planning.save_proposals(s, proposal(school, pf=0, sp=1, plane=0, start=BASE), now=NOW)
+            s.rollback()
+    finally:
+        holder.rollback()
+        holder.close()
+    with make_session_factory(engine)() as s:
+        assert s.scalar(select(func.count()).select_from(models.PracticeSession)) == 0
+    engine.dispose()
