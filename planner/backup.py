@@ -24,6 +24,7 @@ from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
 from sqlalchemy.orm import Session
 
+from planner import status
 from planner.core.logbook import CATEGORIES, Logbook
 from planner.db import models, repository
 from planner.export import interchange
@@ -241,13 +242,16 @@ _PERSON_KEYS = ("ref", "name", "email", "roles", "certificate_level", "category_
                 "timezone", "rule_sets", "practice_targets", "created_at")
 
 
-def restore_school(session: Session, text: str, *, now: datetime | None = None) -> int:
+def restore_school(session: Session, text: str, *, now: datetime | None = None, as_of: Any = None) -> int:
     """Stage the school in ``text`` (a backup document); return the new school's id.
 
     All or nothing: raises ``BackupError`` for a malformed document or one
     that clashes with the database (school slug, email, aircraft registration
     or device identifier already present; an airfield ident present with other
     values; an identical airfield is shared, not duplicated). The caller rolls back.
+    With ``as_of`` (a date, or a function from a time-zone name to its today) the
+    restored pilots' kept statuses are evaluated too (``planner.status.settle``);
+    without it the first read or ``planner refresh`` does that.
     """
     stamp = now or datetime.now(UTC)
     d = _Doc
@@ -427,4 +431,6 @@ def restore_school(session: Session, text: str, *, now: datetime | None = None) 
             note=d.text(spec["note"], f"{where}.note", limit=10_000, empty=True),
         ))
     session.flush()
+    if as_of is not None:
+        status.settle(session, as_of)
     return school.id
