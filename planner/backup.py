@@ -18,6 +18,7 @@ entries are (as a second interchange document), restored as deleted.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
 from datetime import UTC, date, datetime
 from typing import Any
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
@@ -242,7 +243,9 @@ _PERSON_KEYS = ("ref", "name", "email", "roles", "certificate_level", "category_
                 "timezone", "rule_sets", "practice_targets", "created_at")
 
 
-def restore_school(session: Session, text: str, *, now: datetime | None = None, as_of: Any = None) -> int:
+def restore_school(
+    session: Session, text: str, *, now: datetime | None = None, as_of: date | Callable[[str | None], date] | None = None
+) -> int:
     """Stage the school in ``text`` (a backup document); return the new school's id.
 
     All or nothing: raises ``BackupError`` for a malformed document or one

@@ -98,7 +98,7 @@ def import_logbook(
     *,
     now: datetime | None = None,
     progress: Progress = _quiet,
-    as_of: Any = None,
+    as_of: date | Callable[[str | None], date] | None = None,
 ) -> int:
     """Stage a logbook's entries; return the pilot's id (``progress`` hears each stored batch).
 
