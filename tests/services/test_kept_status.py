@@ -332,7 +332,7 @@ class Scenario:
 # ------------------------------------------------------------------ the property
 
 
-@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture, HealthCheck.too_slow])
+@settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(changes=st.lists(CHANGE, min_size=1, max_size=8))
 def test_kept_statuses_equal_a_fresh_evaluation_after_any_sequence_of_changes(template: Path, changes: list) -> None:
     with tempfile.TemporaryDirectory() as tmp:
