@@ -21,12 +21,14 @@ restore.
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
 from datetime import UTC, date, datetime
 from typing import Any
 from zoneinfo import ZoneInfo, ZoneInfoNotFoundError
 
 from sqlalchemy.orm import Session
 
+from planner import status
 from planner.core.logbook import CATEGORIES, Logbook
 from planner.db import models, practice, repository
 from planner.export import interchange
@@ -288,13 +290,18 @@ _PERSON_KEYS = ("ref", "name", "email", "roles", "certificate_level", "category_
                 "timezone", "rule_sets", "practice_targets", "created_at")
 
 
-def restore_school(session: Session, text: str, *, now: datetime | None = None) -> int:
+def restore_school(
+    session: Session, text: str, *, now: datetime | None = None, as_of: date | Callable[[str | None], date] | None = None
+) -> int:
     """Stage the school in ``text`` (a backup document); return the new school's id.
 
     All or nothing: raises ``BackupError`` for a malformed document or one
     that clashes with the database (school slug, email, aircraft registration
     or device identifier already present; an airfield ident present with other
     values; an identical airfield is shared, not duplicated). The caller rolls back.
+    With ``as_of`` (a date, or a function from a time-zone name to its today) the
+    restored pilots' kept statuses are evaluated too (``planner.status.settle``);
+    without it the first read or ``planner refresh`` does that.
     """
     stamp = now or datetime.now(UTC)
     d = _Doc
@@ -484,6 +491,8 @@ def restore_school(session: Session, text: str, *, now: datetime | None = None) 
 
     if v2:
         _restore_sessions(session, doc["practice_sessions"], school, airfields, aircraft, people)
+    if as_of is not None:
+        status.settle(session, as_of)
     return school.id
 
 
@@ -512,7 +521,7 @@ def _restore_sessions(
         if uid in uids or repository.find_by(session, models.PracticeSession, uid=uid) is not None:
             raise BackupError(f"{where}.uid: {uid!r} already exists")
         uids.add(uid)
-        status = d.one_of(spec["status"], f"{where}.status", models.SESSION_STATUSES)
+        state = d.one_of(spec["status"], f"{where}.status", models.SESSION_STATUSES)
         starts, ends = d.instant(spec["starts_at"], f"{where}.starts_at"), d.instant(spec["ends_at"], f"{where}.ends_at")
         if ends <= starts:
             raise BackupError(f"{where}.ends_at: must be after starts_at")
@@ -529,7 +538,7 @@ def _restore_sessions(
         row = models.PracticeSession(
             school_id=school.id, airfield=airfields[spec["airfield"]], aircraft=aircraft[spec["aircraft"]],
             starts_at=starts, ends_at=ends, timezone=d.zone(spec["timezone"], f"{where}.timezone"),
-            pilot_flying=pf, safety_pilot=sp, is_mutual=mutual, status=status, content=content,
+            pilot_flying=pf, safety_pilot=sp, is_mutual=mutual, status=state, content=content,
             explanation=d.text(spec["explanation"], f"{where}.explanation", limit=100_000, empty=True),
             uid=uid,
             sequence=d.number(spec["sequence"], f"{where}.sequence", 0, 1_000_000, whole=True),
@@ -538,7 +547,7 @@ def _restore_sessions(
             updated_at=d.instant(spec["updated_at"], f"{where}.updated_at"),
         )
         rows.append(row)
-        if status in practice.ACTIVE:
+        if state in practice.ACTIVE:
             held += [(f"a/{spec['aircraft']}", f"aircraft {spec['aircraft']}", starts, ends, i),
                      (f"p/{spec['pilot_flying']}", f"{pf.name} ({spec['pilot_flying']})", starts, ends, i),
                      (f"p/{spec['safety_pilot']}", f"{sp.name} ({spec['safety_pilot']})", starts, ends, i)]

@@ -98,6 +98,7 @@ def import_logbook(
     *,
     now: datetime | None = None,
     progress: Progress = _quiet,
+    as_of: date | Callable[[str | None], date] | None = None,
 ) -> int:
     """Stage a logbook's entries; return the pilot's id (``progress`` hears each stored batch).
 
@@ -106,6 +107,9 @@ def import_logbook(
     not applied). All or nothing: raises ``EntryRejected`` (naming the entry
     and field) for a bad entry or an entry id the pilot already has, and
     ``LookupError`` for an unknown pilot; the caller then rolls back.
+    ``as_of`` (a date, or a function from a time-zone name to its today):
+    the day the pilot's kept status is evaluated for (``planner.status.settle``;
+    without it a kept row is re-evaluated for the day it was for).
     """
     stamp = now or datetime.now(UTC)
     if pilot_id is None:
@@ -126,6 +130,8 @@ def import_logbook(
     else:
         person = get_pilot(session, pilot_id)
     repository.add_entries(session, person, list(logbook.entries), now=stamp, progress=progress)
+    if as_of is not None:
+        status.settle(session, as_of)
     return person.id
 
 
@@ -470,6 +476,7 @@ def load_demo(
                 added += 1
     session.flush()
     progress(f"availability windows: {added} added")
+    status.settle(session, today)  # the kept statuses of the pilots whose logbooks changed, as of ``today``
     return accounts
 
 
@@ -706,12 +713,14 @@ def pilot_status(
     """Evaluate the pilot's rule sets as of ``as_of``; with ``planned``, also how each date moves.
 
     The timeline (when ``timeline_range`` is given) includes the planned entries.
-    Nothing is written. Raises ``LookupError`` for an unknown pilot.
+    The report is the kept one when fresh; a stale kept row is re-evaluated and
+    staged for storing (``planner.status``; the caller commits). Raises
+    ``LookupError`` for an unknown pilot.
     """
     person = get_pilot(session, pilot_id)
     logbook = load_logbook(session, pilot_id)
     sets = rule_sets_for(person)
-    report = currency.evaluate(logbook, sets, as_of)
+    report = status.report_for(session, person, as_of, logbook=logbook)
     chart = None
     if timeline_range is not None:
         chart = currency.timeline(logbook, sets, timeline_range[0], timeline_range[1], planned)
@@ -742,13 +751,14 @@ def is_practice(status: currency.RequirementStatus) -> bool:
 def school_overview(session: Session, school_id: int, as_of: date) -> list[OverviewRow]:
     """Every pilot of the school with every requirement as of ``as_of``, soonest lapse first.
 
-    Pilots with nothing ever met sort last, then by name.
+    Pilots with nothing ever met sort last, then by name. Read from the kept
+    statuses in one query; only stale ones are re-evaluated, and staged for
+    storing (``planner.status``; the caller commits).
     """
-    rows = []
-    for person in repository.school_people(session, school_id, pilots_only=True):
-        report = currency.evaluate(load_logbook(session, person.id), rule_sets_for(person), as_of)
-        dates = [s.valid_through for s in report.requirements if not is_practice(s) and s.valid_through]
-        rows.append(OverviewRow(person.id, person.name, report.requirements, min(dates) if dates else None))
+    rows = [
+        OverviewRow(kept.person.id, kept.person.name, kept.report.requirements, kept.soonest)
+        for kept in status.school_statuses(session, school_id, as_of)
+    ]
     rows.sort(key=lambda row: (row.soonest is None, row.soonest or date.max, row.name))
     return rows
 
@@ -901,3 +911,8 @@ def advised_minimums(session: Session, pilot_id: int, as_of: date) -> minimums.A
         return None
     entries = load_logbook(session, pilot_id).entries
     return minimums.advise(baseline, minimums.recency_from(entries, as_of))
+
+
+# Last: ``planner.status`` uses the functions above, and importing it registers the settler that
+# re-evaluates a pilot's kept status before each commit that changed their data.
+from planner import status  # noqa: E402

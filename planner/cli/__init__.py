@@ -9,7 +9,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from planner.cli import backup, currency, data, plan
+from planner.cli import backup, currency, data, plan, status
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -27,6 +27,7 @@ def build_parser() -> argparse.ArgumentParser:
     currency.register(sub)
     plan.register(sub)
     backup.register(sub)
+    status.register(sub)
     return parser
 
 

@@ -62,7 +62,9 @@ def cmd_restore(args: argparse.Namespace) -> int:
         raise CommandError(f"{path}: not UTF-8 text", EXIT_BAD_INPUT) from None
     try:
         with open_session() as session:
-            school_id = backup.restore_school(session, text)
+            from planner.cli.status import today_in
+
+            school_id = backup.restore_school(session, text, as_of=today_in)
     except backup.BackupError as exc:
         raise CommandError(f"{path}: {exc}; nothing was restored", EXIT_BAD_INPUT) from None
     _err(f"restored the school from {path} as school {school_id}")

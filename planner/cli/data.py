@@ -185,7 +185,9 @@ def cmd_import(args: argparse.Namespace) -> int:
     _err(f"read {len(logbook.entries)} entries for {logbook.pilot.name} from {path}; storing ...")
     try:
         with open_session() as session:
-            pilot_id = services.import_logbook(session, logbook, args.pilot, progress=_err)
+            from planner.cli.status import today_in
+
+            pilot_id = services.import_logbook(session, logbook, args.pilot, progress=_err, as_of=today_in)
     except LookupError as exc:
         raise CommandError(f"{exc} (see `planner pilots`); nothing was imported", EXIT_NOT_FOUND) from None
     except services.EntryRejected as exc:

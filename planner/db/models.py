@@ -122,6 +122,10 @@ class Person(Base):
     min_visibility_hundredths_sm: Mapped[int | None] = mapped_column(Integer)
     min_crosswind_kt: Mapped[int | None] = mapped_column(Integer)
     created_at: Mapped[Instant]
+    # Counts the changes that can move the pilot's evaluated status (entries, approaches, checks, rule
+    # sets, practice targets, ratings); raised by ``planner.db.status`` in the same flush, as
+    # ``status_revision + 1`` in SQL, so concurrent writers of one pilot queue on this row.
+    status_revision: Mapped[int] = mapped_column(Integer, default=0, server_default="0")
 
     school: Mapped[School | None] = relationship()
     home_airfield: Mapped[Airfield | None] = relationship()
@@ -440,3 +444,44 @@ class CalendarFeedToken(Base):
     token_hash: Mapped[str] = mapped_column(String(64), unique=True)  # hex SHA-256
     created_at: Mapped[Instant]
     revoked_at: Mapped[datetime | None] = mapped_column(UTCDateTime())
+
+
+STATUS_STATES = ("current", "grace", "lapsed")
+
+
+class KeptStatus(Base):
+    """A pilot's evaluated status, kept current (see ``planner.status`` and ``docs/data.md``).
+
+    ``report`` is the whole ``CurrencyReport`` as of ``as_of`` as JSON (every
+    requirement: rule set, id, scope, title, citation, state, dates, missing,
+    evidence, warnings). It was computed from the pilot's data at
+    ``people.status_revision`` = ``revision`` and with the rule-set files and
+    engine whose digest is ``rules_digest``; if any of these three moved on,
+    the row is stale. The other columns summarise ``report`` for lists:
+    ``worst_state`` of the regulatory requirements (NULL: none), ``soonest``
+    their earliest ``valid_through`` (the overview's sort key), ``next_deadline``
+    the next day one of them ends (``valid_through`` of a current one,
+    ``regain_by`` of one in grace, from ``as_of`` on), ``practice_due`` how many
+    practice targets are not met.
+    """
+
+    __tablename__ = "kept_statuses"
+    __table_args__ = (
+        CheckConstraint(_in("worst_state", STATUS_STATES, nullable=True), name="worst_state"),
+        CheckConstraint("revision >= 0", name="revision_nonneg"),
+        CheckConstraint("practice_due >= 0", name="practice_due_nonneg"),
+    )
+
+    person_id: Mapped[int] = mapped_column(ForeignKey("people.id", ondelete="CASCADE"), primary_key=True)
+    as_of: Mapped[date] = mapped_column(Date, index=True)
+    revision: Mapped[int] = mapped_column(Integer)
+    rules_digest: Mapped[str] = mapped_column(String(16))
+    worst_state: Mapped[str | None] = mapped_column(String(8))
+    soonest: Mapped[date | None] = mapped_column(Date)
+    next_deadline: Mapped[date | None] = mapped_column(Date)
+    practice_due: Mapped[int] = mapped_column(Integer, default=0)
+    report: Mapped[dict[str, Any]] = mapped_column(JSON)
+
+
+# Keeps ``status_revision`` moving with every change of a pilot's data (a session event).
+from planner.db import status as _status  # noqa: E402,F401

@@ -317,6 +317,7 @@ def _page(
     start = as_of - relativedelta(months=PAST_MONTHS)
     end = as_of + relativedelta(months=NEXT_MONTHS)
     result = services.pilot_status(db_session(), person.id, as_of, timeline_range=(start, end), planned=planned or ())
+    db_session().commit()  # keeps the pilot's status if it was stale and has just been re-evaluated
     regulators = {rs.id: rs.regulator or rs.id for rs in result.rule_sets}
     groups = []
     for rs in result.rule_sets:

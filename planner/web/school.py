@@ -66,7 +66,9 @@ def _filtered() -> tuple[models.School, date, str, list[services.OverviewRow], s
     if show not in FILTERS:
         problem = "Unknown filter: showing all pilots."
         show = ""
-    rows = [r for r in services.school_overview(db_session(), school.id, as_of) if matches(r, show, as_of)]
+    session = db_session()
+    rows = [r for r in services.school_overview(session, school.id, as_of) if matches(r, show, as_of)]
+    session.commit()  # keeps the statuses that were stale and have just been re-evaluated
     return school, as_of, show, rows, problem
 
 
