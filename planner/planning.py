@@ -276,9 +276,17 @@ def night_note(airfield: models.Airfield, start: datetime, end: datetime, *, due
     if sun.is_daylight(sky, start, end):
         return None
     periods = sun.passenger_nights(airfield.latitude, airfield.longitude, day, day, tz)
-    spans = " and ".join(
-        f"{p.start:%H:%M}-{'24:00' if p.end.date() > day else format(p.end, '%H:%M')}" for p in periods
-    ) or "none that day"
+    def span(p: sun.Interval) -> str:
+        starts_day, ends_day = p.start.time() == time(0) and p.start.date() == day, p.end.date() > day
+        if starts_day and ends_day:
+            return "all day"
+        if starts_day:
+            return f"until {p.end:%H:%M}"
+        if ends_day:
+            return f"from {p.start:%H:%M}"
+        return f"{p.start:%H:%M}-{p.end:%H:%M}"
+
+    spans = " and ".join(span(p) for p in periods) or "none that day"
     sunset = f"sunset {sky.sunset:%H:%M}" if sky.sunset else "no sunset"
     sunrise = f"sunrise {sky.sunrise:%H:%M}" if sky.sunrise else "no sunrise"
     head = (f"Night session ({sunrise}, {sunset} at {airfield.ident}), allowed by the night-practice setting of "
@@ -290,7 +298,7 @@ def night_note(airfield: models.Airfield, start: datetime, end: datetime, *, due
         text = (f"{head} Ending it with full-stop landings also builds night landing currency: each takeoff and "
                 f"full-stop landing in the period ({spans} local) counts toward the {rule}.")
         if due:
-            text += " Due: " + "; ".join(due) + "."
+            text += " Still needed, and served by such landings: " + "; ".join(due) + "."
         return text
     return (f"{head} Its closing landings fall outside the period that counts for night landing currency "
             f"({spans} local), so they do not count toward the {rule}.")
@@ -518,11 +526,11 @@ def propose_sessions(
     for n in not_plannable:
         if n.gap.unit == r.NIGHT_FULL_STOP_LANDINGS:
             night_due.setdefault(n.person_id, []).append(
-                f"{by_id[n.person_id].name}'s night landings ({n.gap.rule_set}, {n.gap.count:g} to a full stop) "
-                f"by {n.gap.due.isoformat()}")
+                f"{by_id[n.person_id].name}'s night landings ({n.gap.rule_set}, {n.gap.count:g} to a full stop, "
+                f"due {n.gap.due.isoformat()})")
     notes: dict[tuple[datetime, datetime], str] = {}
     for ps in plan.sessions:
-        due = [text for leg in ps.legs for text in night_due.get(keys[leg.pilot_flying], [])]
+        due = list(dict.fromkeys(text for leg in ps.legs for text in night_due.get(keys[leg.pilot_flying], [])))
         note = None if ps.slot.daylight else night_note(airfield, ps.slot.start, ps.slot.end, due=due)
         if note:
             notes[(ps.slot.start, ps.slot.end)] = note
