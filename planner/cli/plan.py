@@ -60,6 +60,9 @@ def _read_weather(name: str | None, now: datetime):  # type: ignore[no-untyped-d
         else:
             with open(name, "rb") as fh:
                 raw = fh.read(planning.MAX_WEATHER_CHARS * 4 + 1)
+        if len(raw) > planning.MAX_WEATHER_CHARS * 4:
+            raise CommandError(f"--weather {label}: more than {planning.MAX_WEATHER_CHARS:,} characters of report "
+                               "text; give only the reports for the days planned", EXIT_BAD_INPUT)
         text = raw.decode("utf-8")
     except OSError as exc:
         raise CommandError(f"--weather: cannot read {label}: {exc.strerror}", EXIT_BAD_INPUT) from None

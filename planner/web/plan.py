@@ -1,7 +1,9 @@
 """The planning page for instructors and admins: propose practice sessions, save them, accept, move, cancel.
 
 Proposals are computed again when saved (the page keeps no server-side
-state), from the same date range. Every change is a POST with the CSRF
+state), from the same date range and options: pasted METAR/TAF text (read
+with ``planning.read_reports``; an unreadable line is a message at the
+field), the plan's practice minimums and the daylight-only choice. Every change is a POST with the CSRF
 token and the version the visitor saw; a stale version is refused with a
 message. Sessions of another school answer 404. A session is marked flown
 by the school's staff or by either person in it.

@@ -196,3 +196,15 @@ def test_plan_options_for_minimums_and_daylight_are_echoed(demo, capsys) -> None
     assert out["practice_minimums"] == {"ceiling_ft": 4500, "visibility_sm": 7.0} and out["daylight_only"] is True
     assert all(s["daylight"] for s in out["sessions"])
     assert "ceiling 4,500 ft, visibility 7 SM" in out["vmc_source"]
+
+
+def test_weather_text_beyond_the_limit_is_refused_whole(demo, capsys, tmp_path) -> None:  # type: ignore[no-untyped-def]
+    args = ["plan", "--school", str(demo["school"]), "--from", FROM, "--to", TO, "--now", NOW]
+    long = tmp_path / "long.txt"
+    long.write_text((TAF + "\n") * 200, encoding="utf-8")  # about 26,000 characters, each report readable
+    assert main([*args, "--weather", str(long)]) == 2
+    assert "at most 20,000" in capsys.readouterr().err
+    huge = tmp_path / "huge.txt"
+    huge.write_bytes(b"\xc3\xa9" * 50_000)  # 100,000 bytes: refused before decoding
+    assert main([*args, "--weather", str(huge)]) == 2
+    assert "more than 20,000 characters" in capsys.readouterr().err
