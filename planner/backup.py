@@ -103,6 +103,7 @@ def backup_school(session: Session, school_id: int, *, include_password_hashes: 
             "rule_sets": list(person.rule_sets or []),
             "practice_targets": _canonical(person.practice_targets or {}),
             **{key: getattr(person, key) for key, _, _ in MINIMUMS},
+            "night_practice": bool(person.night_practice),
             "created_at": _instant(person.created_at),
         }
         if include_password_hashes:
@@ -400,7 +401,7 @@ def restore_school(
     person_keys = _PERSON_KEYS + (tuple(k for k, _, _ in MINIMUMS) if v2 else ())
     for i, spec in enumerate(doc["people"]):
         where = f"people[{i}]"
-        d.obj(spec, where, person_keys, ("password_hash", "logbook", "deleted_entries"))
+        d.obj(spec, where, person_keys, ("password_hash", "logbook", "deleted_entries", "night_practice"))
         ref = d.text(spec["ref"], f"{where}.ref", limit=64)
         if ref in people:
             raise BackupError(f"{where}.ref: {ref!r} is listed twice")
@@ -418,6 +419,9 @@ def restore_school(
             raise BackupError(f"{where}.practice_targets: must be an object")
         medical_class = d.one_of(spec["medical_class"], f"{where}.medical_class", models.MEDICAL_CLASSES, optional=True)
         password_hash = d.text(spec.get("password_hash"), f"{where}.password_hash", limit=255, optional=True)
+        night_practice = spec.get("night_practice", False)
+        if not isinstance(night_practice, bool):
+            raise BackupError(f"{where}.night_practice: must be true or false")
         person = models.Person(
             school_id=school.id,
             name=d.text(spec["name"], f"{where}.name"),
@@ -439,6 +443,7 @@ def restore_school(
             practice_targets=spec["practice_targets"],
             **{key: d.number(spec[key], f"{where}.{key}", low, high, whole=True, optional=True)
                for key, low, high in MINIMUMS if v2},
+            night_practice=night_practice,
             created_at=d.instant(spec["created_at"], f"{where}.created_at"),
         )
         session.add(person)

@@ -9,10 +9,17 @@ Builds the scheduler's ``Problem`` from the database and the pure core:
 * people: everyone of the school holding a pilot certificate (possible safety
   pilots included), with ratings and medical / BasicMed dates;
 * candidate slots: 2-hour slots starting on each full hour 07:00-17:00 local
-  at the school's home airfield; daylight from ``core.sun`` (sunrise to sunset,
-  sea-level horizon: the conservative choice at a high airfield); VMC
-  likelihood from the climatology of ``<observations_dir>/<ident>.csv`` if
-  that file exists (loaded once per file), otherwise unknown;
+  at the school's home airfield (to 20:00 when a pilot of the school allows
+  night practice and the plan is not daylight-only); daylight from
+  ``core.sun`` (sunrise to sunset, sea-level horizon: the conservative choice
+  at a high airfield); VMC likelihood from pasted or imported METAR/TAF text
+  for the airfield where the reports cover the slot, else from the
+  climatology of ``<observations_dir>/<ident>.csv`` if that file exists
+  (loaded once per file and minimums), otherwise unknown; the practice
+  minimums (default ceiling 3,000 ft, visibility 5 SM) decide;
+* night: a pilot's ``night_practice`` setting lets the scheduler place them
+  after sunset; a night session's explanation says whether its closing
+  full-stop landings count toward night landing currency (14 CFR 61.57(b));
 * availability windows of people and aircraft; active sessions already in the
   database as bookings; the who-flew-for-whom balance from accepted and flown
   sessions (no separate counter).
@@ -47,6 +54,7 @@ from planner.db.practice import SessionConflict, SessionRejected
 
 __all__ = [
     "NotPlannable",
+    "WeatherRejected",
     "Proposal",
     "SessionConflict",
     "SessionRejected",
@@ -61,7 +69,9 @@ __all__ = [
     "list_schools",
     "move_session",
     "pilot_calendar_for",
+    "practice_minimums",
     "propose_sessions",
+    "read_reports",
     "save_proposals",
 ]
 
@@ -69,10 +79,26 @@ DEFAULT_OBSERVATIONS = REPO_ROOT / "seed_demo" / "observations"
 SLOT_HOURS = 2
 FIRST_START = time(7, 0)
 LAST_END = time(19, 0)
+NIGHT_LAST_END = time(22, 0)  # evening slots when night practice is allowed: product choice
+MAX_WEATHER_CHARS = 20_000  # pasted report text: plenty for a day of METARs and a few TAFs
+MAX_MIN_CEILING_FT = 10_000
+MAX_MIN_VISIBILITY_SM = 10.0
 # Practice true airspeed by aircraft class for the briefing: product defaults (no aircraft data holds them).
 PRACTICE_TAS_KT = {"single-engine-land": 100.0, "multi-engine-land": 140.0}
 DEFAULT_TAS_KT = 100.0
 Progress = services.Progress
+
+
+class WeatherRejected(SessionRejected):
+    """Pasted or imported METAR/TAF text cannot be read; the message starts with the line ("line 3: ...")."""
+
+
+class MinimumsRejected(SessionRejected):
+    """Practice minimums out of range; ``field`` is "ceiling_ft" or "visibility_sm"."""
+
+    def __init__(self, field: str, message: str) -> None:
+        super().__init__(message)
+        self.field = field
 
 
 @dataclass(frozen=True)
@@ -105,46 +131,177 @@ class Proposal:
     leg_plans: dict[tuple[str, str], sessions.SessionPlan]
     not_plannable: tuple[NotPlannable, ...]
     vmc_source: str
+    minimums: weather.PracticeMinimums = weather.DEFAULT_MINIMUMS
+    daylight_only: bool = False
+    # (slot start, slot end) -> what decided the slot's VMC likelihood; session (start, end) -> night note
+    vmc_basis: dict[tuple[datetime, datetime], weather.Likelihood] = dataclasses.field(default_factory=dict)
+    night_notes: dict[tuple[datetime, datetime], str] = dataclasses.field(default_factory=dict)
+
+    def weather_note(self, ps: scheduling.ProposedSession) -> str:
+        """Which source decided the VMC likelihood of a proposed session's slot, in words."""
+        basis = self.vmc_basis.get((ps.slot.start, ps.slot.end))
+        return weather_words(basis) if basis is not None else "VMC likelihood unknown"
+
+    def night_note(self, ps: scheduling.ProposedSession) -> str | None:
+        return self.night_notes.get((ps.slot.start, ps.slot.end))
 
 
 # ---------------------------------------------------------------- inputs
 
 
 @lru_cache(maxsize=8)
-def _climatology(path: str, mtime: float, tz_name: str) -> weather.Climatology:
+def _climatology(path: str, mtime: float, tz_name: str,
+                 minimums: weather.PracticeMinimums = weather.DEFAULT_MINIMUMS) -> weather.Climatology:
     text = Path(path).read_text(encoding="utf-8")
-    return weather.climatology(weather.observations_from_csv(text), ZoneInfo(tz_name))
+    return weather.climatology(weather.observations_from_csv(text), ZoneInfo(tz_name), minimums)
 
 
-def climatology_for(ident: str, tz_name: str, observations_dir: Path | None) -> weather.Climatology | None:
+def climatology_for(ident: str, tz_name: str, observations_dir: Path | None,
+                    minimums: weather.PracticeMinimums = weather.DEFAULT_MINIMUMS) -> weather.Climatology | None:
     """The airfield's climatology from ``<observations_dir>/<ident>.csv``, or None when there is no file."""
     if observations_dir is None:
         return None
     path = Path(observations_dir) / f"{ident}.csv"
     if not path.is_file():
         return None
-    return _climatology(str(path), path.stat().st_mtime, tz_name)
+    return _climatology(str(path), path.stat().st_mtime, tz_name, minimums)
+
+
+def read_reports(text: str | None, *, now: datetime) -> tuple[weather.Metar | weather.Taf, ...]:
+    """METAR/SPECI and TAF reports from pasted or imported text (empty text: none).
+
+    ``now`` (aware) places the reports' day-of-month in a month. Raises
+    ``WeatherRejected`` whose message starts with the line that cannot be
+    read ("line 3: ..."), or says the text is too long.
+    """
+    if text is None or not text.strip():
+        return ()
+    if len(text) > MAX_WEATHER_CHARS:
+        raise WeatherRejected(f"the report text has {len(text):,} characters; at most {MAX_WEATHER_CHARS:,}")
+    try:
+        return weather.parse_reports(text, now)
+    except weather.WeatherParseError as exc:
+        raise WeatherRejected(str(exc)) from None
+
+
+def _whole(value: Any) -> int:
+    if isinstance(value, bool):
+        raise TypeError
+    number = float(value)
+    if number != int(number):
+        raise ValueError
+    return int(number)
+
+
+def practice_minimums(ceiling_ft: Any = None, visibility_sm: Any = None) -> weather.PracticeMinimums:
+    """The plan's practice minimums; None keeps the default (ceiling 3,000 ft, visibility 5 SM).
+
+    Ceiling: whole feet 0..10,000; visibility: statute miles 0..10. Raises
+    ``MinimumsRejected`` naming the field.
+    """
+    default = weather.DEFAULT_MINIMUMS
+    try:
+        ceiling = default.ceiling_ft if ceiling_ft is None else _whole(ceiling_ft)
+        if not 0 <= ceiling <= MAX_MIN_CEILING_FT:
+            raise ValueError
+    except (TypeError, ValueError, OverflowError):
+        raise MinimumsRejected("ceiling_ft", f"the ceiling minimum is whole feet from 0 to {MAX_MIN_CEILING_FT:,}") from None
+    try:
+        vis = default.visibility_sm if visibility_sm is None else float(visibility_sm)
+        if not 0 <= vis <= MAX_MIN_VISIBILITY_SM:  # also refuses NaN
+            raise ValueError
+    except (TypeError, ValueError, OverflowError):
+        raise MinimumsRejected("visibility_sm", f"the visibility minimum is statute miles from 0 to {MAX_MIN_VISIBILITY_SM:g}") from None
+    return weather.PracticeMinimums(ceiling_ft=ceiling, visibility_sm=vis)
 
 
 def candidate_slots(
-    airfield: models.Airfield, start: date, end: date, climatology: weather.Climatology | None, not_before: datetime
-) -> list[scheduling.SlotInfo]:
-    """2-hour slots on each full hour from 07:00 (last ending 19:00) local, ``start``..``end`` inclusive."""
+    airfield: models.Airfield, start: date, end: date, climatology: weather.Climatology | None, not_before: datetime,
+    *, reports: Sequence[weather.Metar | weather.Taf] = (),
+    minimums: weather.PracticeMinimums = weather.DEFAULT_MINIMUMS, last_end: time = LAST_END,
+) -> tuple[list[scheduling.SlotInfo], dict[tuple[datetime, datetime], weather.Likelihood]]:
+    """2-hour slots on each full hour from 07:00 (last ending ``last_end``) local, ``start``..``end`` inclusive.
+
+    Returns the slots and, per (start, end), what decided its VMC likelihood
+    (``reports`` must all be for the airfield).
+    """
     tz = ZoneInfo(airfield.timezone)
     out = []
+    basis: dict[tuple[datetime, datetime], weather.Likelihood] = {}
     day = start
     while day <= end:
         sky = sun.sun_times(airfield.latitude, airfield.longitude, day, tz)
         t = datetime.combine(day, FIRST_START, tz)
-        last = datetime.combine(day, LAST_END, tz)
+        last = datetime.combine(day, last_end, tz)
         while t + timedelta(hours=SLOT_HOURS) <= last:
             s, e = t, t + timedelta(hours=SLOT_HOURS)
             if s >= not_before:
-                vmc = weather.vmc_likelihood(s, e, tz, (), climatology).value
-                out.append(scheduling.SlotInfo(s, e, airfield.ident, sun.is_daylight(sky, s, e), vmc))
+                likelihood = weather.vmc_likelihood(s, e, tz, reports, climatology, minimums)
+                basis[(s, e)] = likelihood
+                out.append(scheduling.SlotInfo(s, e, airfield.ident, sun.is_daylight(sky, s, e), likelihood.value))
             t += timedelta(hours=1)
         day += timedelta(days=1)
-    return out
+    return out, basis
+
+
+def source_kind(likelihood: weather.Likelihood) -> str:
+    """"report text", "climatology" or "unknown": what decided a slot's VMC likelihood."""
+    if likelihood.value is None:
+        return "unknown"
+    return "report text" if likelihood.from_reports else "climatology"
+
+
+def weather_words(likelihood: weather.Likelihood) -> str:
+    """One line saying which source decided a slot's VMC likelihood, and why."""
+    kind = source_kind(likelihood)
+    if kind == "report text":
+        return f"VMC likelihood {likelihood.value:.0%} from the report text: {likelihood.reason}"
+    if kind == "climatology":
+        return f"VMC likelihood {likelihood.value:.0%} from climatology (no report covers the slot): {likelihood.reason}"
+    return f"VMC likelihood unknown: {likelihood.reason}"
+
+
+def night_note(airfield: models.Airfield, start: datetime, end: datetime, *, due: Sequence[str] = ()) -> str | None:
+    """For a session outside daylight: whether its closing full-stop landings count toward 14 CFR 61.57(b).
+
+    None in daylight. The landings are taken to be in the session's last
+    minutes. 61.57(b): 3 takeoffs and 3 landings to a full stop within the
+    preceding 90 days, in the period from one hour after sunset to one hour
+    before sunrise, to carry passengers at night. ``due`` lists, in words,
+    night-landing needs of the pilots flying that the session could serve.
+    """
+    tz = ZoneInfo(airfield.timezone)
+    day = start.astimezone(tz).date()
+    sky = sun.sun_times(airfield.latitude, airfield.longitude, day, tz)
+    if sun.is_daylight(sky, start, end):
+        return None
+    periods = sun.passenger_nights(airfield.latitude, airfield.longitude, day, day, tz)
+    def span(p: sun.Interval) -> str:
+        starts_day, ends_day = p.start.time() == time(0) and p.start.date() == day, p.end.date() > day
+        if starts_day and ends_day:
+            return "all day"
+        if starts_day:
+            return f"until {p.end:%H:%M}"
+        if ends_day:
+            return f"from {p.start:%H:%M}"
+        return f"{p.start:%H:%M}-{p.end:%H:%M}"
+
+    spans = " and ".join(span(p) for p in periods) or "none that day"
+    sunset = f"sunset {sky.sunset:%H:%M}" if sky.sunset else "no sunset"
+    sunrise = f"sunrise {sky.sunrise:%H:%M}" if sky.sunrise else "no sunrise"
+    head = (f"Night session ({sunrise}, {sunset} at {airfield.ident}), allowed by the night-practice setting of "
+            "the pilot(s) flying.")
+    landing = end.astimezone(tz) - timedelta(minutes=1)
+    rule = ("3 takeoffs and 3 landings to a full stop within the preceding 90 days, between one hour after sunset "
+            "and one hour before sunrise, to carry passengers at night (14 CFR 61.57(b))")
+    if any(p.contains(landing) for p in periods):
+        text = (f"{head} Ending it with full-stop landings also builds night landing currency: each takeoff and "
+                f"full-stop landing in the period ({spans} local) counts toward the {rule}.")
+        if due:
+            text += " Still needed, and served by such landings: " + "; ".join(due) + "."
+        return text
+    return (f"{head} Its closing landings fall outside the period that counts for night landing currency "
+            f"({spans} local), so they do not count toward the {rule}.")
 
 
 def _key(person: models.Person) -> str:
@@ -240,13 +397,20 @@ def propose_sessions(
     *,
     now: datetime,
     observations_dir: Path | None = DEFAULT_OBSERVATIONS,
+    reports: Sequence[weather.Metar | weather.Taf] = (),
+    minimums: weather.PracticeMinimums = weather.DEFAULT_MINIMUMS,
+    daylight_only: bool = False,
     progress: Progress = services._quiet,
 ) -> Proposal:
     """Propose practice sessions for the school from ``start`` through ``end`` (local dates, inclusive).
 
     ``now`` (aware) excludes slots that have begun; gaps are found as of
-    ``start``. Raises ``LookupError`` for an unknown school and
-    ``SessionRejected`` for a bad range or a school without a home airfield.
+    ``start``. ``reports`` (from ``read_reports``) decide a slot's VMC
+    likelihood where they cover it; reports for other stations are ignored
+    and said so. ``minimums`` are the practice minimums. ``daylight_only``
+    keeps every session in daylight whatever the pilots' night settings.
+    Raises ``LookupError`` for an unknown school and ``SessionRejected`` for
+    a bad range or a school without a home airfield.
     """
     if now.tzinfo is None:
         raise ValueError("now must be timezone-aware")
@@ -308,6 +472,7 @@ def propose_sessions(
             category_classes=tuple(person.category_classes or ()),
             medical_until=person.medical_expires,
             basicmed_until=person.basicmed_expires,
+            allow_night=bool(person.night_practice) and person.is_pilot and not daylight_only,
             session_minutes=minutes,
         ))
 
@@ -318,8 +483,12 @@ def propose_sessions(
         key = _key(by_id[w.person_id]) if w.person_id is not None else next(
             reg for reg, i in plane_keys.items() if i == w.aircraft_id)
         availability.setdefault(key, []).append(scheduling.Window(w.starts_at, w.ends_at))
-    clim = climatology_for(airfield.ident, airfield.timezone, observations_dir)
-    slots = candidate_slots(airfield, start, end, clim, now)
+    clim = climatology_for(airfield.ident, airfield.timezone, observations_dir, minimums)
+    here = tuple(rep for rep in reports if rep.station == airfield.ident)
+    elsewhere = sorted({rep.station for rep in reports if rep.station != airfield.ident})
+    night = any(p.allow_night for p in pilots)
+    slots, basis = candidate_slots(airfield, start, end, clim, now, reports=here, minimums=minimums,
+                                   last_end=NIGHT_LAST_END if night else LAST_END)
     bookings = []
     for row in active:
         for pid in row.people_ids:
@@ -351,16 +520,50 @@ def propose_sessions(
         for leg in ps.legs:
             served = set(leg.needs)
             gs = [g for g in all_gaps[keys[leg.pilot_flying]] if _need_id(g) in served]
-            leg_plans[(leg.pilot_flying, leg.safety_pilot)] = sessions.plan_session(gs, _tas(plane))
-    if clim is None:
-        vmc_source = f"VMC likelihood unknown: no observation history for {airfield.ident}"
-    else:
-        vmc_source = f"VMC likelihood from the {airfield.ident} observation history (climatology by month and hour)"
+            leg_plans[(leg.pilot_flying, leg.safety_pilot)] = sessions.plan_session(
+                gs, _tas(plane), sessions.SessionSettings(night=not ps.slot.daylight))
+    night_due: dict[int, list[str]] = {}
+    for n in not_plannable:
+        if n.gap.unit == r.NIGHT_FULL_STOP_LANDINGS:
+            night_due.setdefault(n.person_id, []).append(
+                f"{by_id[n.person_id].name}'s night landings ({n.gap.rule_set}, {n.gap.count:g} to a full stop, "
+                f"due {n.gap.due.isoformat()})")
+    notes: dict[tuple[datetime, datetime], str] = {}
+    for ps in plan.sessions:
+        due = list(dict.fromkeys(text for leg in ps.legs for text in night_due.get(keys[leg.pilot_flying], [])))
+        note = None if ps.slot.daylight else night_note(airfield, ps.slot.start, ps.slot.end, due=due)
+        if note:
+            notes[(ps.slot.start, ps.slot.end)] = note
     return Proposal(
         school_id=school_id, airfield_id=airfield.id, airfield_ident=airfield.ident, timezone=airfield.timezone,
         start=start, end=end, plan=plan, person_ids=keys, aircraft_ids=plane_keys, gaps=all_gaps,
-        leg_plans=leg_plans, not_plannable=tuple(not_plannable), vmc_source=vmc_source,
+        leg_plans=leg_plans, not_plannable=tuple(not_plannable),
+        vmc_source=_vmc_summary(airfield.ident, basis, clim is not None, len(here), elsewhere, minimums, daylight_only,
+                                night),
+        minimums=minimums, daylight_only=daylight_only, vmc_basis=basis, night_notes=notes,
     )
+
+
+def _vmc_summary(ident: str, basis: dict[tuple[datetime, datetime], weather.Likelihood], history: bool,
+                 used: int, elsewhere: Sequence[str], minimums: weather.PracticeMinimums, daylight_only: bool,
+                 night: bool) -> str:
+    """How the plan judged VMC likelihood and daylight, in a few sentences."""
+    counts = {"report text": 0, "climatology": 0, "unknown": 0}
+    for likelihood in basis.values():
+        counts[source_kind(likelihood)] += 1
+    first = (f"{used} pasted or imported report{'s' if used != 1 else ''} for {ident} where they cover a slot "
+             f"({counts['report text']} slots), otherwise " if used else "")
+    second = (f"the {ident} observation history (climatology by month and hour; {counts['climatology']} slots)"
+              if history else f"no observation history for {ident}")
+    text = (f"VMC likelihood: {first}{second}; unknown for {counts['unknown']} slots. Practice minimums: ceiling "
+            f"{minimums.ceiling_ft:,} ft, visibility {minimums.visibility_sm:g} SM")
+    if elsewhere:
+        text += f". Reports for other stations ignored ({', '.join(elsewhere)}): the sessions are at {ident}"
+    if daylight_only:
+        text += ". Daylight only for this plan, whatever the pilots' night settings"
+    elif night:
+        text += ". Evening slots included: night sessions only for pilots whose setting allows night practice"
+    return text
 
 
 # ---------------------------------------------------------------- store and change
@@ -394,6 +597,16 @@ def _local_span(start: datetime, end: datetime, tz_name: str) -> str:
     tz = ZoneInfo(tz_name)
     a, b = start.astimezone(tz), end.astimezone(tz)
     return f"{a:%Y-%m-%d %H:%M}-{b:%H:%M}" if a.date() == b.date() else f"{a:%Y-%m-%d %H:%M}-{b:%Y-%m-%d %H:%M}"
+
+
+def explanation(proposal: Proposal, ps: scheduling.ProposedSession) -> str:
+    """The stored explanation of a proposed session: why this slot and partner, the weather source, night."""
+    lines = [f"Why this slot: {ps.why_slot}", f"Why this partner: {ps.why_partner}",
+             f"Weather: {proposal.weather_note(ps)}"]
+    note = proposal.night_note(ps)
+    if note:
+        lines.append(f"Night: {note}")
+    return "\n".join(lines)
 
 
 def save_proposals(session: Session, proposal: Proposal, *, now: datetime) -> list[models.PracticeSession]:
@@ -442,7 +655,7 @@ def save_proposals(session: Session, proposal: Proposal, *, now: datetime) -> li
             is_mutual=ps.is_mutual,
             status="proposed",
             content={"legs": legs, "daylight": ps.slot.daylight, "vmc": ps.slot.vmc},
-            explanation=f"Why this slot: {ps.why_slot}\nWhy this partner: {ps.why_partner}",
+            explanation=explanation(proposal, ps),
             uid=f"{uuid.uuid4()}@planner",
             sequence=0,
             version=1,
@@ -520,7 +733,10 @@ def move_session(session: Session, session_id: int, new_start: datetime, *, expe
                  now: datetime) -> models.PracticeSession:
     """Move a proposed or accepted session to ``new_start`` (aware), keeping its length.
 
-    Refused when either person or the aircraft is in another active session then.
+    Refused when either person or the aircraft is in another active session
+    then, or when the new time is not in daylight and a pilot flying in it
+    has not allowed night practice. The explanation gets a line saying the
+    session was moved (and, at night, the night-landing note).
     """
     if new_start.tzinfo is None:
         raise SessionRejected("new start must be timezone-aware")
@@ -534,6 +750,31 @@ def move_session(session: Session, session_id: int, new_start: datetime, *, expe
         start=start, end=end, pilot_flying_id=row.pilot_flying_id, safety_pilot_id=row.safety_pilot_id,
         aircraft_id=row.aircraft_id, exclude_id=row.id,
     )
+    airfield = row.airfield
+    tz = ZoneInfo(row.timezone)
+    local = start.astimezone(tz)
+    sky = sun.sun_times(airfield.latitude, airfield.longitude, local.date(), tz)
+    daylight = sun.is_daylight(sky, start, end)
+    if not daylight:
+        flying = {leg.get("pilot_flying_id") for leg in row.content.get("legs", [])} or {row.pilot_flying_id}
+        refusing = sorted(p.name for p in (session.get(models.Person, pid) for pid in flying)
+                          if p is not None and not p.night_practice)
+        if refusing:
+            light = (f"sunrise {sky.sunrise:%H:%M}, sunset {sky.sunset:%H:%M}" if sky.sunrise and sky.sunset
+                     else "no sunrise or sunset that day")
+            raise SessionRejected(
+                f"practice session {session_id} cannot move to {local:%Y-%m-%d %H:%M}: it would not be in daylight "
+                f"({light} at {airfield.ident}) and {' and '.join(refusing)} "
+                f"{'has' if len(refusing) == 1 else 'have'} not allowed night practice in their settings"
+            )
+    kept = [line for line in row.explanation.splitlines() if not line.startswith(("Night: ", "Moved: "))]
+    kept.append(f"Moved: by hand to {local:%Y-%m-%d %H:%M} local; the reasons and weather above were for the "
+                "time first proposed")
+    note = night_note(airfield, start, end)
+    if note:
+        kept.append(f"Night: {note}")
+    row.explanation = "\n".join(kept)
+    row.content = {**row.content, "daylight": daylight}
     row.starts_at, row.ends_at = start, end
     practice.bump(session, row, now)
     return row

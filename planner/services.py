@@ -889,6 +889,20 @@ def update_minimums(
     return person
 
 
+def update_night_practice(session: Session, pilot_id: int, *, allowed: Any) -> models.Person:
+    """Stage whether the pilot allows practice under a view-limiting device at night (default: daylight only).
+
+    ``allowed`` must be True or False; raises ``SettingsRejected`` naming
+    ``night_practice`` otherwise.
+    """
+    if not isinstance(allowed, bool):
+        raise SettingsRejected("night_practice", "choose yes or no")
+    person = get_pilot(session, pilot_id)
+    person.night_practice = allowed
+    session.flush()
+    return person
+
+
 def baseline_minimums(person: models.Person) -> minimums.Minimums | None:
     """The pilot's baseline personal minimums, or None when not (fully) set."""
     if None in (person.min_ceiling_ft, person.min_visibility_hundredths_sm, person.min_crosswind_kt):

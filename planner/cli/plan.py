@@ -47,8 +47,45 @@ def cmd_schools(args: argparse.Namespace) -> int:
     return 0
 
 
+def _read_weather(name: str | None, now: datetime):  # type: ignore[no-untyped-def]
+    """The reports in the --weather file ('-': standard input); CommandError naming the file and line."""
+    from planner import planning
+
+    if name is None:
+        return ()
+    label = "standard input" if name == "-" else name
+    try:
+        if name == "-":
+            raw = sys.stdin.buffer.read(planning.MAX_WEATHER_CHARS * 4 + 1)
+        else:
+            with open(name, "rb") as fh:
+                raw = fh.read(planning.MAX_WEATHER_CHARS * 4 + 1)
+        if len(raw) > planning.MAX_WEATHER_CHARS * 4:
+            raise CommandError(f"--weather {label}: more than {planning.MAX_WEATHER_CHARS:,} characters of report "
+                               "text; give only the reports for the days planned", EXIT_BAD_INPUT)
+        text = raw.decode("utf-8")
+    except OSError as exc:
+        raise CommandError(f"--weather: cannot read {label}: {exc.strerror}", EXIT_BAD_INPUT) from None
+    except UnicodeDecodeError:
+        raise CommandError(f"--weather {label}: not UTF-8 text", EXIT_BAD_INPUT) from None
+    try:
+        return planning.read_reports(text, now=now)
+    except planning.WeatherRejected as exc:
+        raise CommandError(f"--weather {label}: {exc}; nothing was planned", EXIT_BAD_INPUT) from None
+
+
 def _local(moment: datetime, tz: str) -> str:
     return moment.astimezone(ZoneInfo(tz)).strftime("%a %Y-%m-%d %H:%M")
+
+
+def _basis_json(prop, s) -> dict:  # type: ignore[no-untyped-def]
+    """Which source decided the slot's VMC likelihood: "report text", "climatology" or "unknown"."""
+    from planner import planning
+
+    basis = prop.vmc_basis.get((s.slot.start, s.slot.end))
+    if basis is None:
+        return {"source": "unknown", "detail": None, "reason": "not assessed"}
+    return {"source": planning.source_kind(basis), "detail": basis.source, "reason": basis.reason}
 
 
 def _plan_json(prop, saved) -> dict:  # type: ignore[no-untyped-def]
@@ -64,6 +101,8 @@ def _plan_json(prop, saved) -> dict:  # type: ignore[no-untyped-def]
             "aircraft": s.aircraft,
             "daylight": s.slot.daylight,
             "vmc_likelihood": s.slot.vmc,
+            "vmc_basis": _basis_json(prop, s),
+            "night_note": prop.night_note(s),
             "mutual": s.is_mutual,
             "legs": [
                 {
@@ -84,6 +123,8 @@ def _plan_json(prop, saved) -> dict:  # type: ignore[no-untyped-def]
         "to": prop.end.isoformat(),
         "airfield": prop.airfield_ident,
         "vmc_source": prop.vmc_source,
+        "practice_minimums": {"ceiling_ft": prop.minimums.ceiling_ft, "visibility_sm": prop.minimums.visibility_sm},
+        "daylight_only": prop.daylight_only,
         "saved": bool(saved),
         "sessions": sessions,
         "unmet": [
@@ -121,6 +162,9 @@ def _print_plan(prop, saved) -> None:  # type: ignore[no-untyped-def]
                   f"safety pilot; about {plan.total_minutes} min")
         print(f"    why this slot: {s.why_slot}")
         print(f"    why this partner: {s.why_partner}")
+        print(f"    weather: {prop.weather_note(s)}")
+        if prop.night_note(s):
+            print(f"    night: {prop.night_note(s)}")
         print()
     if prop.plan.unmet:
         print("Needs no session meets:")
@@ -144,11 +188,19 @@ def cmd_plan(args: argparse.Namespace) -> int:
 
     settings = Settings.from_env()
     now = datetime.now(UTC)
+    planning_now = now if args.now is None else args.now
+    reports = _read_weather(args.weather, planning_now)
+    try:
+        minimums = planning.practice_minimums(args.min_ceiling, args.min_visibility)
+    except planning.MinimumsRejected as exc:
+        option = "--min-ceiling" if exc.field == "ceiling_ft" else "--min-visibility"
+        raise CommandError(f"{option}: {exc}", EXIT_BAD_INPUT) from None
     with open_session(settings) as session:
         try:
             prop = planning.propose_sessions(
-                session, args.school, args.start, args.end, now=now if args.now is None else args.now,
-                observations_dir=settings.seed_dir / "observations", progress=_err,
+                session, args.school, args.start, args.end, now=planning_now,
+                observations_dir=settings.seed_dir / "observations", reports=reports, minimums=minimums,
+                daylight_only=args.daylight_only, progress=_err,
             )
         except LookupError as exc:
             raise CommandError(str(exc), EXIT_NOT_FOUND) from None
@@ -190,6 +242,16 @@ def cmd_export_ics(args: argparse.Namespace) -> int:
     return 0
 
 
+def _number_arg(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+    if value != value:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}")
+    return value
+
+
 def _instant_arg(text: str) -> datetime:
     try:
         value = datetime.fromisoformat(text)
@@ -210,9 +272,11 @@ def register(sub: argparse._SubParsersAction) -> None:
         "plan",
         help="propose practice sessions for a school",
         description="Propose practice sessions under a view-limiting device for a school from --from to --to: "
-        "daylight 2-hour slots at the school's home airfield, likely-VMC slots preferred, eligible safety "
-        "pilots (14 CFR 91.109(c)), nobody and no aircraft double-booked. Explains each choice and lists the "
-        "needs no session meets. Advisory only: the pilot in command decides.",
+        "2-hour slots at the school's home airfield, in daylight unless the pilots' settings allow night, "
+        "likely-VMC slots preferred (from --weather reports where they cover a slot, else the observation "
+        "history), eligible safety pilots (14 CFR 91.109(c)), nobody and no aircraft double-booked. Explains "
+        "each choice, says which source judged the weather, and lists the needs no session meets. Advisory "
+        "only: the pilot in command decides.",
     )
     p.add_argument("--school", type=_id_arg, required=True, metavar="ID", help="school id (see `planner schools`)")
     p.add_argument("--from", dest="start", type=_date_arg, required=True, metavar="YYYY-MM-DD")
@@ -221,6 +285,15 @@ def register(sub: argparse._SubParsersAction) -> None:
     p.add_argument("--save", action="store_true", help="store the proposals as proposed sessions")
     p.add_argument("--now", type=_instant_arg, metavar="DATETIME",
                    help="treat this instant as now (slots before it are skipped; default: the clock)")
+    p.add_argument("--weather", metavar="FILE",
+                   help="METAR/SPECI and TAF text for the school's airfield ('-': standard input): where the reports "
+                   "cover a slot they decide its VMC likelihood, elsewhere the observation history does")
+    p.add_argument("--min-ceiling", type=_number_arg, metavar="FT",
+                   help="practice minimum ceiling in feet above the airfield (default 3000)")
+    p.add_argument("--min-visibility", type=_number_arg, metavar="SM",
+                   help="practice minimum visibility in statute miles (default 5)")
+    p.add_argument("--daylight-only", action="store_true",
+                   help="keep every session in daylight, whatever the pilots' night-practice settings")
     p.set_defaults(func=_guarded(cmd_plan))
 
     p = sub.add_parser(

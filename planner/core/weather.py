@@ -20,6 +20,11 @@ Conventions:
   500-999 ft and/or 1 to below 3 SM; LIFR below 500 ft and/or below 1 SM;
 * a METAR is taken as valid for one hour from its observation time
   (routine reports are hourly) - a product choice;
+* a slot is judged from reports only when together they cover all of it:
+  for each part the latest METAR valid then (an observation beats a
+  forecast for its hour), elsewhere the latest-issued TAF;
+* pasted text holding several reports is split into reports by line
+  (``parse_reports``); a group it cannot read is reported with its line;
 * TAF change groups: FM starts new prevailing conditions; BECMG changes
   them over its period (during the period the worse of old and new counts,
   after it the new); TEMPO and PROB30/PROB40 (with or without TEMPO) are
@@ -45,6 +50,7 @@ from datetime import datetime, timedelta, timezone, tzinfo
 
 METRES_PER_SM = 1609.344
 METAR_VALIDITY = timedelta(hours=1)  # product choice, see module docstring
+REPORT_SOURCES = ("metar", "taf", "metar+taf")
 MIN_CLIMATOLOGY_SAMPLES = 30  # product choice: fewer hours than this in a (month, hour) cell is "too few"
 _UTC = timezone.utc
 
@@ -486,6 +492,77 @@ def parse_report(text: str, as_of: datetime) -> Metar | Taf:
     return parse_metar(text, as_of)
 
 
+# ------------------------------------------------------------------ pasted report text
+
+_REPORT_WORDS = ("METAR", "SPECI", "TAF")
+_CHANGE_WORD = re.compile(r"^(FM\d{6}|BECMG|TEMPO|PROB30|PROB40)$")
+_QUOTED = re.compile(r"'([^']+)'")
+
+
+def _report_chunks(text: str) -> list[tuple[int, list[tuple[int, str]]]]:
+    """Split pasted text into reports: (first line number, [(line number, line), ...]).
+
+    A line whose first word is METAR, SPECI or TAF starts a report. While a
+    report is open, a line that starts with blanks or a TAF change group (FM,
+    BECMG, TEMPO, PROB30/40), or any line that does not look like a report's
+    start (a station and a DDHHMMZ time), continues it; otherwise a station
+    and time start a new one. A blank line, or a line ending with "=",
+    closes the report.
+    """
+    chunks: list[tuple[int, list[tuple[int, str]]]] = []
+    open_ = False
+    for number, raw in enumerate(text.splitlines(), start=1):
+        line = raw.strip()
+        if not line:
+            open_ = False
+            continue
+        words = line.upper().split()
+        starts = words[0] in _REPORT_WORDS or (
+            len(words) > 1 and _STATION.match(words[0]) is not None and _TIME.match(words[1]) is not None
+        )
+        continues = open_ and words[0] not in _REPORT_WORDS and (
+            raw[:1].isspace() or _CHANGE_WORD.match(words[0]) is not None or not starts
+        )
+        if continues:
+            chunks[-1][1].append((number, line))
+        elif starts:
+            chunks.append((number, [(number, line)]))
+        else:
+            raise WeatherParseError(
+                f"line {number}: not the start of a report (expected METAR, SPECI or TAF, or a station and "
+                f"a DDHHMMZ time): {line[:40]!r}"
+            )
+        open_ = not line.endswith("=")
+    return chunks
+
+
+def parse_reports(text: str, as_of: datetime) -> tuple[Metar | Taf, ...]:
+    """Read every METAR/SPECI and TAF in pasted text (reports split as in ``_report_chunks``).
+
+    ``as_of`` (aware) places the day-of-month groups in a month. Raises
+    ``WeatherParseError`` whose message starts with the line number of the
+    group that could not be read (or of the report's first line); nothing is
+    returned unless every report reads. Empty text gives no reports.
+    """
+    reports: list[Metar | Taf] = []
+    for first, lines in _report_chunks(text):
+        body = " ".join(line for _, line in lines)
+        try:
+            reports.append(parse_report(body, as_of))
+        except WeatherParseError as exc:
+            number = first
+            quoted = _QUOTED.search(str(exc))
+            if quoted:
+                group = quoted.group(1).upper().split()
+                for n, line in lines:
+                    words = line.upper().split()
+                    if any(words[i:i + len(group)] == group for i in range(len(words))):
+                        number = n
+                        break
+            raise WeatherParseError(f"line {number}: {exc}") from None
+    return tuple(reports)
+
+
 # ------------------------------------------------------------------ climatology
 
 
@@ -594,29 +671,18 @@ def climatology(observations: Iterable[Observation], tz: tzinfo,
 class Likelihood:
     """How likely a slot is to meet the practice minimums.
 
-    ``value`` 0..1 or None; ``source`` "metar" | "taf" | "climatology" | "unknown".
-    For a METAR or TAF the value is the share of the slot during which the
-    (conservatively read) report meets the minimums.
+    ``value`` 0..1 or None; ``source`` "metar" | "taf" | "metar+taf" |
+    "climatology" | "unknown". From reports the value is the share of the
+    slot during which the (conservatively read) reports meet the minimums.
     """
+
+    @property
+    def from_reports(self) -> bool:
+        return self.source in REPORT_SOURCES
 
     value: float | None
     source: str
     reason: str
-
-
-def _share_meeting(taf: Taf, start: datetime, end: datetime, minimums: PracticeMinimums) -> float:
-    cuts = [start] + [b for b in taf.boundaries() if start < b < end] + [end]
-    total = (end - start).total_seconds()
-    good = 0.0
-    for a, b in zip(cuts, cuts[1:]):
-        c = taf.conditions_at(a)
-        if meets_minimums(c.ceiling_ft, c.visibility_sm, minimums):
-            good += (b - a).total_seconds()
-    return good / total if total else float(meets_minimums(*_cv(taf.conditions_at(start)), minimums))
-
-
-def _cv(c: Conditions) -> tuple[int | None, float | None]:
-    return c.ceiling_ft, c.visibility_sm
 
 
 def vmc_likelihood(slot_start: datetime, slot_end: datetime, tz: tzinfo, reports: Sequence[Metar | Taf],
@@ -624,30 +690,22 @@ def vmc_likelihood(slot_start: datetime, slot_end: datetime, tz: tzinfo, reports
                    min_samples: int = MIN_CLIMATOLOGY_SAMPLES) -> Likelihood:
     """VMC likelihood for the slot ``[slot_start, slot_end)`` (aware datetimes).
 
-    Order: the latest METAR whose validity (observation time + 1 h) contains
-    the whole slot; else the latest-issued TAF whose validity contains it;
-    else the climatology (the slot's local hours in ``tz``, weighted by the
-    minutes of the slot in each hour; None if any of those hours has fewer
-    than ``min_samples`` observations); else unknown.
+    Order: the reports, when together they cover the whole slot: for each
+    part of the slot the latest METAR valid then (observation time + 1 h),
+    else the latest-issued TAF whose validity contains it; the value is the
+    share of the slot meeting the minimums (source "metar", "taf", or
+    "metar+taf" when both kinds were used). Else the climatology (the slot's
+    local hours in ``tz``, weighted by the minutes of the slot in each hour;
+    None if any of those hours has fewer than ``min_samples`` observations);
+    else unknown. Reports for other stations must be left out by the caller.
     """
     if slot_start.tzinfo is None or slot_end.tzinfo is None:
         raise ValueError("slot_start and slot_end must be aware datetimes")
     if slot_end <= slot_start:
         raise ValueError("slot_end must be after slot_start")
-    metars = [r for r in reports if isinstance(r, Metar) and r.valid_from <= slot_start and slot_end <= r.valid_to]
-    if metars:
-        m = max(metars, key=lambda r: r.time)
-        ok = meets_minimums(m.conditions.ceiling_ft, m.conditions.visibility_sm, minimums)
-        return Likelihood(1.0 if ok else 0.0, "metar",
-                          f"{m.kind} {m.station} {m.time:%d%H%MZ}: {_describe(m.conditions)} "
-                          f"{'meets' if ok else 'is below'} {_describe_minimums(minimums)} (valid 1 h)")
-    tafs = [r for r in reports if isinstance(r, Taf) and r.valid_from <= slot_start and slot_end <= r.valid_to]
-    if tafs:
-        t = max(tafs, key=lambda r: r.issued)
-        share = _share_meeting(t, slot_start, slot_end, minimums)
-        return Likelihood(share, "taf",
-                          f"TAF {t.station} {t.issued:%d%H%MZ}: {share:.0%} of the slot meets "
-                          f"{_describe_minimums(minimums)} (TEMPO/PROB groups counted at their worst)")
+    from_reports = _from_reports(slot_start, slot_end, reports, minimums)
+    if from_reports is not None:
+        return from_reports
     if climatology is None:
         return Likelihood(None, "unknown", "no report covers the slot and no observation history is loaded")
     if climatology.minimums != minimums:
@@ -672,6 +730,59 @@ def vmc_likelihood(slot_start: datetime, slot_end: datetime, tz: tzinfo, reports
     value = weighted / weight
     return Likelihood(value, "climatology",
                       f"{value:.0%} of past hours at this month and time of day met {_describe_minimums(minimums)}")
+
+
+def _from_reports(start: datetime, end: datetime, reports: Sequence[Metar | Taf],
+                  minimums: PracticeMinimums) -> Likelihood | None:
+    """The likelihood from reports that together cover ``[start, end)``; None when a part is uncovered."""
+    touching = [r for r in reports if r.valid_from < end and start < r.valid_to]
+    if not touching:
+        return None
+    cuts = {start, end}
+    for r in touching:
+        cuts |= {r.valid_from, r.valid_to}
+        if isinstance(r, Taf):
+            cuts |= set(r.boundaries())
+    points = sorted(c for c in cuts if start <= c <= end)
+    good = 0.0
+    used: dict[Metar | Taf, float] = {}
+    for a, b in zip(points, points[1:]):
+        metars = [r for r in touching if isinstance(r, Metar) and r.valid_from <= a and b <= r.valid_to]
+        report: Metar | Taf
+        if metars:
+            report = max(metars, key=lambda r: r.time)
+            conditions = report.conditions
+        else:
+            tafs = [r for r in touching if isinstance(r, Taf) and r.valid_from <= a and b <= r.valid_to]
+            if not tafs:
+                return None
+            report = max(tafs, key=lambda r: r.issued)
+            conditions = report.conditions_at(a)
+        seconds = (b - a).total_seconds()
+        used[report] = used.get(report, 0.0) + seconds
+        if meets_minimums(conditions.ceiling_ft, conditions.visibility_sm, minimums):
+            good += seconds
+    share = good / (end - start).total_seconds()
+    kinds = {"metar" if isinstance(r, Metar) else "taf" for r in used}
+    source = "metar+taf" if len(kinds) == 2 else kinds.pop()
+    if len(used) == 1:
+        (only,) = used
+        if isinstance(only, Metar):
+            ok = meets_minimums(only.conditions.ceiling_ft, only.conditions.visibility_sm, minimums)
+            return Likelihood(share, source,
+                              f"{only.kind} {only.station} {only.time:%d%H%MZ}: {_describe(only.conditions)} "
+                              f"{'meets' if ok else 'is below'} {_describe_minimums(minimums)} (valid 1 h)")
+        return Likelihood(share, source,
+                          f"TAF {only.station} {only.issued:%d%H%MZ}: {share:.0%} of the slot meets "
+                          f"{_describe_minimums(minimums)} (TEMPO/PROB groups counted at their worst)")
+    parts = ", ".join(
+        f"{r.kind if isinstance(r, Metar) else 'TAF'} {r.station} "
+        f"{(r.time if isinstance(r, Metar) else r.issued):%d%H%MZ} ({seconds / 60:.0f} min)"
+        for r, seconds in used.items()
+    )
+    return Likelihood(share, source,
+                      f"{parts}: {share:.0%} of the slot meets {_describe_minimums(minimums)} "
+                      "(a METAR for its hour, a TAF elsewhere; TEMPO/PROB groups counted at their worst)")
 
 
 def _describe(c: Conditions) -> str:

@@ -24,6 +24,7 @@ from sqlalchemy import (
     String,
     Text,
     UniqueConstraint,
+    false,
 )
 from sqlalchemy.orm import Mapped, mapped_column, relationship
 
@@ -121,6 +122,8 @@ class Person(Base):
     min_ceiling_ft: Mapped[int | None] = mapped_column(Integer)
     min_visibility_hundredths_sm: Mapped[int | None] = mapped_column(Integer)
     min_crosswind_kt: Mapped[int | None] = mapped_column(Integer)
+    # The pilot allows practice under a view-limiting device at night (set in settings; default daylight only).
+    night_practice: Mapped[bool] = mapped_column(Boolean, default=False, server_default=false())
     created_at: Mapped[Instant]
     # Counts the changes that can move the pilot's evaluated status (entries, approaches, checks, rule
     # sets, practice targets, ratings); raised by ``planner.db.status`` in the same flush, as

@@ -1,7 +1,9 @@
 """The planning page for instructors and admins: propose practice sessions, save them, accept, move, cancel.
 
 Proposals are computed again when saved (the page keeps no server-side
-state), from the same date range. Every change is a POST with the CSRF
+state), from the same date range and options: pasted METAR/TAF text (read
+with ``planning.read_reports``; an unreadable line is a message at the
+field), the plan's practice minimums and the daylight-only choice. Every change is a POST with the CSRF
 token and the version the visitor saw; a stale version is refused with a
 message. Sessions of another school answer 404. A session is marked flown
 by the school's staff or by either person in it.
@@ -16,12 +18,13 @@ from zoneinfo import ZoneInfo
 from flask import Blueprint, abort, flash, redirect, render_template, request, url_for
 from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
-from wtforms import DateField, SubmitField
-from wtforms.validators import InputRequired
+from wtforms import BooleanField, DateField, DecimalField, SubmitField, TextAreaField
+from wtforms.validators import InputRequired, Length, NumberRange, Optional, StopValidation
 
 from planner import planning
+from planner.core import weather
 from planner.db import models
-from planner.web import access, db_session, now, today
+from planner.web import access, db_session, forms, now, today
 
 bp = Blueprint("plan", __name__)
 
@@ -30,11 +33,33 @@ MAX_DAYS = 93
 SHOW_PAST_DAYS = 7
 
 
+def _finite(_form: FlaskForm, field: DecimalField) -> None:
+    """Refuse NaN and infinities before any range check compares them."""
+    if field.data is not None and not field.data.is_finite():
+        raise StopValidation("Give a number.")
+
+
 class RangeForm(FlaskForm):
-    """The date range to plan (local dates at the school's airfield, both inclusive)."""
+    """The date range to plan (local dates at the school's airfield, both inclusive) and the plan's options."""
 
     start = DateField("From", validators=[InputRequired(message="Give the first day to plan (YYYY-MM-DD).")])
     end = DateField("To", validators=[InputRequired(message="Give the last day to plan (YYYY-MM-DD).")])
+    weather = TextAreaField(
+        "Weather reports for the airfield (METAR/TAF text, optional)",
+        validators=[Optional(), Length(max=planning.MAX_WEATHER_CHARS,
+                                       message=f"At most {planning.MAX_WEATHER_CHARS:,} characters.")],
+    )
+    vmc_ceiling_ft = forms.BoundedIntegerField(
+        "Practice minimum ceiling (ft above the airfield)",
+        validators=[Optional(), NumberRange(0, planning.MAX_MIN_CEILING_FT,
+                                            f"From 0 to {planning.MAX_MIN_CEILING_FT:,} ft.")],
+    )
+    vmc_visibility_sm = DecimalField(
+        "Practice minimum visibility (statute miles)", places=2,
+        validators=[Optional(), _finite, NumberRange(0, planning.MAX_MIN_VISIBILITY_SM,
+                                                     f"From 0 to {planning.MAX_MIN_VISIBILITY_SM:g} SM.")],
+    )
+    daylight_only = BooleanField("Daylight only for this plan (whatever the pilots' night-practice settings)")
     submit = SubmitField("Propose sessions")
 
 
@@ -97,7 +122,10 @@ def _index(school: models.School, *, form: RangeForm | None = None, errors: dict
            status: int = 200):  # type: ignore[no-untyped-def]
     as_of = today(_tz(school))
     if form is None:
-        form = RangeForm(formdata=None, data={"start": as_of, "end": as_of + timedelta(days=DEFAULT_DAYS - 1)})
+        form = RangeForm(formdata=None, data={
+            "start": as_of, "end": as_of + timedelta(days=DEFAULT_DAYS - 1),
+            "vmc_ceiling_ft": weather.DEFAULT_MINIMUMS.ceiling_ft, "vmc_visibility_sm": weather.DEFAULT_MINIMUMS.visibility_sm,
+        })
     rows = planning.school_sessions(db_session(), school.id, since=now() - timedelta(days=SHOW_PAST_DAYS))
     return render_template(
         "plan/index.html", school=school, as_of=as_of, form=form, sessions=[_row_view(r) for r in rows],
@@ -113,9 +141,22 @@ def index():  # type: ignore[no-untyped-def]
 
 
 def _propose(school: models.School, form: RangeForm) -> planning.Proposal | None:
-    """Run the scheduler for the form's range; None (with the message at a field) when refused."""
+    """Run the scheduler for the form's range and options; None (with the message at a field) when refused."""
     try:
-        return planning.propose_sessions(db_session(), school.id, form.start.data, form.end.data, now=now())
+        reports = planning.read_reports(form.weather.data, now=now())
+    except planning.WeatherRejected as exc:
+        text = str(exc)
+        form.weather.errors = [*form.weather.errors, text[:1].upper() + text[1:] + ". Nothing was planned."]
+        return None
+    try:
+        minimums = planning.practice_minimums(form.vmc_ceiling_ft.data, form.vmc_visibility_sm.data)
+    except planning.MinimumsRejected as exc:
+        field = form.vmc_ceiling_ft if exc.field == "ceiling_ft" else form.vmc_visibility_sm
+        field.errors = [*field.errors, str(exc)]
+        return None
+    try:
+        return planning.propose_sessions(db_session(), school.id, form.start.data, form.end.data, now=now(),
+                                         reports=reports, minimums=minimums, daylight_only=bool(form.daylight_only.data))
     except planning.SessionRejected as exc:
         form.end.errors = [*form.end.errors, str(exc)]
         return None
@@ -146,6 +187,8 @@ def propose():  # type: ignore[no-untyped-def]
             "start": _local(ps.slot.start, proposal.timezone), "end": _local(ps.slot.end, proposal.timezone),
             "aircraft": ps.aircraft, "mutual": ps.is_mutual, "daylight": ps.slot.daylight, "vmc": ps.slot.vmc,
             "why_slot": ps.why_slot, "why_partner": ps.why_partner, "legs": legs,
+            "weather": proposal.weather_note(ps), "night": proposal.night_note(ps),
+            "source": planning.source_kind(proposal.vmc_basis[(ps.slot.start, ps.slot.end)]),
         })
     unmet = [{"pilot": _name(u.pilot), "need": labels.get(u.need, u.need), "due": u.due, "reason": u.reason}
              for u in proposal.plan.unmet]

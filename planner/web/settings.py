@@ -1,4 +1,4 @@
-"""Per-pilot settings: rule sets, practice targets, home airfield and time zone."""
+"""Per-pilot settings: rule sets, practice targets, home airfield and time zone, minimums, night practice."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ from typing import Any
 from flask import Blueprint, abort, flash, redirect, render_template, url_for
 from flask_login import current_user, login_required
 from flask_wtf import FlaskForm
-from wtforms import DecimalField, SelectField, SelectMultipleField, StringField, SubmitField
+from wtforms import BooleanField, DecimalField, SelectField, SelectMultipleField, StringField, SubmitField
 from wtforms.fields.choices import SelectChoice
 from wtforms.validators import InputRequired, Length, NumberRange, Optional, StopValidation, ValidationError
 from wtforms.widgets import CheckboxInput, ListWidget
@@ -64,6 +64,7 @@ class _Base(FlaskForm):
         "Crosswind component, at most (kt)",
         validators=[Optional(), NumberRange(0, services.MAX_CROSSWIND_KT, f"From 0 to {services.MAX_CROSSWIND_KT} kt.")],
     )
+    night_practice = BooleanField("Allow practice under a view-limiting device at night")
     submit = SubmitField("Save settings")
 
     def validate_min_visibility_sm(self, field: DecimalField) -> None:
@@ -204,6 +205,7 @@ def _edit(person: models.Person, *, feed_url: str | None = None):  # type: ignor
                     visibility_sm=form.min_visibility_sm.data,
                     crosswind_kt=form.min_crosswind_kt.data,
                 )
+                services.update_night_practice(session, person.id, allowed=bool(form.night_practice.data))
             except services.SettingsRejected as exc:
                 session.rollback()
                 target = form.timezone if exc.field == "timezone" else getattr(form, exc.field, None)
@@ -220,6 +222,7 @@ def _edit(person: models.Person, *, feed_url: str | None = None):  # type: ignor
         form.rule_sets.data = list(person.rule_sets or services.DEFAULT_RULE_SETS)
         form.home_airfield.data = person.home_airfield.ident if person.home_airfield else ""
         form.timezone.data = person.timezone or ""
+        form.night_practice.data = bool(person.night_practice)
         baseline = services.baseline_minimums(person)
         if baseline is not None:
             form.min_ceiling_ft.data = baseline.ceiling_ft

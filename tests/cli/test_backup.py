@@ -231,9 +231,14 @@ def _minimums_out_of_range(doc: dict) -> str:
     return f"people[{len(doc['people']) - 1}].min_crosswind_kt: must be a whole number from 0 to 50"
 
 
+def _night_practice_not_a_boolean(doc: dict) -> str:
+    doc["people"][-1]["night_practice"] = "yes"
+    return f"people[{len(doc['people']) - 1}].night_practice: must be true or false"
+
+
 @pytest.mark.parametrize("damage", [_break_last_logbook, _break_last_window, _unknown_key, _clashing_session,
                                     _unknown_session_status, _unknown_person_in_session, _swapped_mutual_legs,
-                                    _leg_item_without_minutes, _minimums_out_of_range])
+                                    _leg_item_without_minutes, _minimums_out_of_range, _night_practice_not_a_boolean])
 def test_a_bad_document_restores_nothing_and_names_the_place(school_url: str, tmp_path: Path, damage) -> None:  # type: ignore[no-untyped-def]
     doc = json.loads(_backup_text(school_url))
     place = damage(doc)
@@ -310,3 +315,25 @@ def test_backup_of_an_unknown_school_fails_with_a_message(
     status, _out, err = run(monkeypatch, capsys, school_url, "backup", "--school", "999", "-o", str(tmp_path / "x.json"))
     assert status == 1 and "no school with id 999" in err
     assert not (tmp_path / "x.json").exists()
+
+
+def test_the_night_practice_setting_survives_backup_and_restore(school_url: str, tmp_path: Path) -> None:
+    engine, s = _session(school_url)
+    with s:
+        mara = repository.person_by_email(s, "mara.oyelaran@juniper-ridge.example")
+        mara.night_practice = True
+        s.commit()
+    engine.dispose()
+    doc = json.loads(_backup_text(school_url))
+    assert {p["name"]: p["night_practice"] for p in doc["people"]}["Mara Oyelaran"] is True
+    assert sum(p["night_practice"] for p in doc["people"]) == 1  # everyone else: the default, daylight only
+    without = {**doc, "people": [{k: v for k, v in p.items() if k != "night_practice"} for p in doc["people"]]}
+    for text, expected in ((json.dumps(doc), True), (json.dumps(without), False)):  # absent reads as false
+        target = f"sqlite:///{tmp_path / f'target-{expected}.sqlite3'}"
+        migrate.upgrade(target)
+        engine, s = _session(target)
+        with s:
+            backup.restore_school(s, text, now=STAMP)
+            s.commit()
+            assert repository.person_by_email(s, "mara.oyelaran@juniper-ridge.example").night_practice is expected
+        engine.dispose()

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import io
 import json
+from datetime import UTC, datetime
 from pathlib import Path
 
 import pytest
@@ -119,3 +121,90 @@ def test_plan_save_that_clashes_with_a_booking_made_meanwhile_exits_2_and_stores
     assert "already holds" in err and "nothing was stored" in err
     assert count() == before
     engine.dispose()
+
+
+# A TAF for the demo airfield, valid 1 Dec 12:00Z to 2 Dec 18:00Z (read off the report's validity group by hand);
+# from 2 Dec 06:00Z more than 6 SM and sky clear, which meets the default 3,000 ft / 5 SM.
+TAF = "TAF QJRR 011120Z 0112/0218 27012KT P6SM SCT050\n  FM012000 30008KT 5SM BR BKN015\n  FM020600 30008KT P6SM SKC\n"
+
+
+def _count_sessions() -> int:
+    import os
+
+    from sqlalchemy import text
+
+    from planner.db.session import make_engine
+
+    engine = make_engine(os.environ["PLANNER_DATABASE_URL"])
+    try:
+        with engine.connect() as conn:
+            return conn.execute(text("SELECT count(*) FROM practice_sessions")).scalar_one()
+    finally:
+        engine.dispose()
+
+
+def test_plan_reads_weather_reports_from_a_file_and_says_which_source_decided(demo, capsys, tmp_path) -> None:  # type: ignore[no-untyped-def]
+    path = tmp_path / "qjrr.txt"
+    path.write_text(TAF, encoding="utf-8")
+    out = _plan(capsys, demo, "--weather", str(path))
+    assert out["practice_minimums"] == {"ceiling_ft": 3000, "visibility_sm": 5.0} and out["daylight_only"] is False
+    sources = {}
+    for s in out["sessions"]:
+        start, end = (datetime.fromisoformat(s[k]) for k in ("start", "end"))
+        inside = datetime(2026, 12, 1, 12, tzinfo=UTC) <= start and end <= datetime(2026, 12, 2, 18, tzinfo=UTC)
+        sources[s["start"]] = s["vmc_basis"]["source"]
+        assert s["vmc_basis"]["source"] == ("report text" if inside else "climatology"), s["start"]
+        if inside:
+            assert s["vmc_likelihood"] == 1.0 and s["vmc_basis"]["reason"].startswith("TAF QJRR 011120Z")
+    assert "report text" in sources.values(), "a session inside the TAF's validity (Priya, Wednesday 2 Dec)"
+    assert "1 pasted or imported report for QJRR" in out["vmc_source"]
+    # The table says the same in words.
+    assert main(["plan", "--school", str(demo["school"]), "--from", FROM, "--to", TO, "--now", NOW, "--weather", str(path)]) == 0
+    table = capsys.readouterr().out
+    assert "    weather: VMC likelihood 100% from the report text: TAF QJRR 011120Z" in table
+    assert "from climatology (no report covers the slot)" in table
+
+
+def test_plan_reads_weather_from_standard_input(demo, capsys, monkeypatch) -> None:  # type: ignore[no-untyped-def]
+    monkeypatch.setattr("sys.stdin", io.TextIOWrapper(io.BytesIO(TAF.encode("utf-8")), encoding="utf-8"))
+    out = _plan(capsys, demo, "--weather", "-")
+    assert any(s["vmc_basis"]["source"] == "report text" for s in out["sessions"])
+
+
+def test_unreadable_weather_text_names_the_file_and_line_and_plans_nothing(demo, capsys, tmp_path) -> None:  # type: ignore[no-untyped-def]
+    path = tmp_path / "bad.txt"
+    path.write_text(TAF.replace("P6SM SKC", "P6SM SKX"), encoding="utf-8")
+    args = ["plan", "--school", str(demo["school"]), "--from", FROM, "--to", TO, "--now", NOW, "--save"]
+    assert main([*args, "--weather", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert f"--weather {path}: line 3: " in err and "'SKX'" in err and "nothing was planned" in err
+    assert _count_sessions() == 0
+    assert main([*args, "--weather", str(tmp_path / "missing.txt")]) == 2
+    assert "cannot read" in capsys.readouterr().err
+    path.write_bytes(b"\xff\xfe METAR")
+    assert main([*args, "--weather", str(path)]) == 2
+    assert "not UTF-8 text" in capsys.readouterr().err
+    assert main([*args, "--min-ceiling", "20000"]) == 2
+    assert "--min-ceiling: the ceiling minimum is whole feet from 0 to 10,000" in capsys.readouterr().err
+    assert main([*args, "--min-visibility", "11"]) == 2
+    assert "--min-visibility" in capsys.readouterr().err
+    assert _count_sessions() == 0
+
+
+def test_plan_options_for_minimums_and_daylight_are_echoed(demo, capsys) -> None:  # type: ignore[no-untyped-def]
+    out = _plan(capsys, demo, "--min-ceiling", "4500", "--min-visibility", "7", "--daylight-only")
+    assert out["practice_minimums"] == {"ceiling_ft": 4500, "visibility_sm": 7.0} and out["daylight_only"] is True
+    assert all(s["daylight"] for s in out["sessions"])
+    assert "ceiling 4,500 ft, visibility 7 SM" in out["vmc_source"]
+
+
+def test_weather_text_beyond_the_limit_is_refused_whole(demo, capsys, tmp_path) -> None:  # type: ignore[no-untyped-def]
+    args = ["plan", "--school", str(demo["school"]), "--from", FROM, "--to", TO, "--now", NOW]
+    long = tmp_path / "long.txt"
+    long.write_text((TAF + "\n") * 200, encoding="utf-8")  # about 26,000 characters, each report readable
+    assert main([*args, "--weather", str(long)]) == 2
+    assert "at most 20,000" in capsys.readouterr().err
+    huge = tmp_path / "huge.txt"
+    huge.write_bytes(b"\xc3\xa9" * 50_000)  # 100,000 bytes: refused before decoding
+    assert main([*args, "--weather", str(huge)]) == 2
+    assert "more than 20,000 characters" in capsys.readouterr().err

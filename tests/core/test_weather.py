@@ -386,3 +386,74 @@ def test_demo_history_matches_its_documented_generator():
     exec(compile(code, "README generator", "exec"), namespace)
     generated = namespace["generate"]()
     assert generated == (REPO / "seed_demo" / "observations" / "QJRR.csv").read_text()
+
+
+# ------------------------------------------------------------ pasted report text
+
+PASTED = f"""{METARS[0]}
+{METARS[1]}
+
+{TAF}
+
+QKTM 121750Z 24015KT 9999 FEW030 SCT250 12/01 Q1013
+TAF QBLV 121845Z 1219/1318 VRB03KT CAVOK
+  TEMPO 1304/1308 3000 BR=
+"""
+
+
+def test_pasted_text_splits_into_reports_each_read_like_alone():
+    """Each report read from the pasted block equals the same report read on its own (our own parser
+    checked against the metar package above); a TAF over several lines is one report."""
+    got = w.parse_reports(PASTED, AS_OF)
+    alone = [w.parse_report(METARS[0], AS_OF), w.parse_report(METARS[1], AS_OF), w.parse_report(TAF, AS_OF),
+             w.parse_report("QKTM 121750Z 24015KT 9999 FEW030 SCT250 12/01 Q1013", AS_OF),
+             w.parse_report("TAF QBLV 121845Z 1219/1318 VRB03KT CAVOK TEMPO 1304/1308 3000 BR", AS_OF)]
+    assert [type(r) for r in got] == [w.Metar, w.Metar, w.Taf, w.Metar, w.Taf]
+    for a, b in zip(got, alone):
+        assert (a.station, a.valid_from, a.valid_to) == (b.station, b.valid_from, b.valid_to)
+        if isinstance(a, w.Taf):
+            assert a.groups == b.groups
+        else:
+            assert a.conditions == b.conditions
+    assert w.parse_reports("", AS_OF) == () and w.parse_reports("\n  \n", AS_OF) == ()
+
+
+PASTED_ERRORS = [
+    (f"{METARS[0]}\n{METARS[1].replace('FEW045', 'FEW04X')}", "line 2:", "FEW04X"),
+    (f"{TAF.replace('TEMPO 1310/1314', 'TEMPO 1310/13')}", "line 4:", "1310/13"),
+    (f"{TAF.replace('OVC008', 'OVCOO8')}", "line 3:", "OVCOO8"),
+    (f"{METARS[0]}\n\nhello there", "line 3:", "not the start of a report"),
+    ("\n\n  FM130200 30008KT 5SM BR BKN015", "line 3:", "not the start of a report"),
+    ("METAR QJRR 121753Z 27012KT CLR 12/11 A2990", "line 1:", "no visibility"),
+]
+
+
+@pytest.mark.parametrize(("text", "line", "named"), PASTED_ERRORS, ids=[e[2] for e in PASTED_ERRORS])
+def test_unreadable_pasted_text_names_the_line_and_the_group(text, line, named):
+    with pytest.raises(w.WeatherParseError) as caught:
+        w.parse_reports(text, AS_OF)
+    assert str(caught.value).startswith(line) and named in str(caught.value)
+
+
+def test_a_metar_decides_its_hour_and_the_taf_the_rest_of_the_slot():
+    """Slot 18:00-20:00Z: the 17:53Z METAR (800 ft, 1.5 SM: below) until 18:53Z, then the TAF base (P6SM SCT050:
+    meets 3,000 ft / 5 SM). Expected share worked by hand: 67 of 120 minutes = 0.558."""
+    metar = w.parse_metar(METARS[0], AS_OF)
+    taf = w.parse_taf(TAF, AS_OF)
+    slot = (datetime(2026, 3, 12, 18, 0, tzinfo=UTC), datetime(2026, 3, 12, 20, 0, tzinfo=UTC))
+    got = w.vmc_likelihood(*slot, DENVER, [taf, metar], ALL_GOOD)
+    assert got.source == "metar+taf" and got.from_reports
+    assert got.value == pytest.approx(67 / 120)
+    assert "METAR QJRR 121753Z (53 min)" in got.reason and "TAF QJRR 121720Z (67 min)" in got.reason
+    # two METARs one after the other cover a slot alone: the later one decides its own hour
+    later = w.parse_metar("METAR QJRR 121853Z 31008KT 10SM FEW045 18/M02 A3012", AS_OF)
+    both = w.vmc_likelihood(datetime(2026, 3, 12, 18, 0, tzinfo=UTC), datetime(2026, 3, 12, 19, 30, tzinfo=UTC),
+                            DENVER, [metar, later], None)
+    assert both.source == "metar" and both.value == pytest.approx(37 / 90)
+
+
+def test_reports_that_leave_part_of_the_slot_uncovered_give_way_to_climatology():
+    metar = w.parse_metar(METARS[0], AS_OF)  # valid 17:53Z-18:53Z
+    slot = (datetime(2026, 3, 12, 18, 0, tzinfo=UTC), datetime(2026, 3, 12, 20, 0, tzinfo=UTC))
+    got = w.vmc_likelihood(*slot, DENVER, [metar], ALL_GOOD)
+    assert (got.source, got.value, got.from_reports) == ("climatology", 1.0, False)

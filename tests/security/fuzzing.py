@@ -99,8 +99,11 @@ WHAT_IF = {
     "entries-1-day": "2026-12-20", "add": "", "submit": "Show how the dates move",
 }
 SETTINGS = {"rule_sets": ["faa-part61", "practice-targets"], "home_airfield": "QJRR", "timezone": "America/Denver",
-            "pt0_days": "60", "pt0_0": "2", "pt1_days": "90", "submit": "Save settings"}
-PLAN_RANGE = {"start": "2026-12-01", "end": "2026-12-03"}  # short: a kept range runs the scheduler
+            "pt0_days": "60", "pt0_0": "2", "pt1_days": "90", "night_practice": "y", "submit": "Save settings"}
+PLAN_RANGE = {"start": "2026-12-01", "end": "2026-12-03",  # short: a kept range runs the scheduler
+              "weather": "METAR QJRR 011753Z 27012KT 10SM FEW045 12/01 A2990\n"
+                         "TAF QJRR 011720Z 0118/0224 27012KT P6SM SCT050\n  TEMPO 0200/0204 3SM -SHRA BKN015",
+              "vmc_ceiling_ft": "3000", "vmc_visibility_sm": "5", "daylight_only": "y"}
 PLAN_SESSION = {"session_id": "1", "version": "1"}
 SIGN_IN = {"email": "mara.oyelaran@juniper-ridge.example", "password": "not-the-password", "next": "/"}
 

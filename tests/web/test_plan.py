@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import html
 import re
-from datetime import UTC, date, datetime
+from datetime import UTC, date, datetime, timedelta
 from zoneinfo import ZoneInfo
 
 import pytest
@@ -180,3 +180,69 @@ def test_a_pilot_sees_their_own_sessions_on_the_dashboard_with_the_calendar_link
     dev = papp.test_client()
     sign_in(dev, "dev")
     assert "No practice session planned." in dev.get("/").get_data(as_text=True)
+
+
+# A TAF for the demo airfield, valid 1 Dec 12:00Z to 2 Dec 18:00Z (read off its validity group by hand).
+TAF = "TAF QJRR 011120Z 0112/0218 27012KT P6SM SCT050\n  FM012000 30008KT 5SM BR BKN015\n  FM020600 30008KT P6SM SKC\n"
+
+
+def test_pasted_reports_decide_the_slots_they_cover_and_the_page_says_which_source(papp: Flask) -> None:
+    client, token = _staff(papp)
+    # Free Priya's Wednesday 2 Dec again (the fixture stored a proposal there), so a session falls inside the TAF.
+    for s in stored_sessions(papp):
+        assert client.post("/plan/cancel", data={"csrf_token": token, "session_id": s["id"],
+                                                 "version": s["version"]}).status_code == 302
+    data = {"csrf_token": token, "start": "2026-12-01", "end": "2026-12-16", "weather": TAF,
+            "vmc_ceiling_ft": "3000", "vmc_visibility_sm": "5"}
+    page = client.post("/plan/propose", data=data).get_data(as_text=True)
+    heads = re.findall(r'<h2 id="proposal-\d+-h">(\d{4}-\d\d-\d\d \d\d:\d\d)', page)
+    sources = re.findall(r'<p class="vmc-source source-([a-z-]+)"><strong>Weather \(([a-z ]+)\):</strong>', page)
+    assert heads and len(sources) == len(heads) == page.count("Why this slot:")
+    for head, (_, source) in zip(heads, sources):
+        start = datetime.fromisoformat(head).replace(tzinfo=ZoneInfo("America/Denver"))
+        inside = datetime(2026, 12, 1, 12, tzinfo=UTC) <= start and start + timedelta(hours=2) <= datetime(2026, 12, 2, 18, tzinfo=UTC)
+        assert source == ("report text" if inside else "climatology"), head
+    assert "report text" in {source for _, source in sources}, "Priya's Wednesday 2 Dec lies inside the TAF"
+    assert "1 pasted or imported report for QJRR" in page
+    # Saving uses the same reports: the stored explanation names the TAF for the session inside its validity.
+    before = {s["id"] for s in stored_sessions(papp)}
+    assert client.post("/plan/save", data=data).status_code == 302
+    with papp.app_context():
+        from planner.db import models
+        from planner.web import db_session
+
+        rows = [db_session().get(models.PracticeSession, s["id"]) for s in stored_sessions(papp) if s["id"] not in before]
+        lines = [line for row in rows for line in row.explanation.splitlines() if line.startswith("Weather: ")]
+    assert any(line.startswith("Weather: VMC likelihood 100% from the report text: TAF QJRR 011120Z") for line in lines)
+
+
+def test_unreadable_reports_and_bad_minimums_get_a_message_at_the_field_and_nothing_is_stored(papp: Flask) -> None:
+    client, token = _staff(papp)
+    before = stored_sessions(papp)
+    base = {"csrf_token": token, "start": "2026-12-01", "end": "2026-12-28"}
+    cases = [
+        ({"weather": TAF.replace("P6SM SKC", "P6SM SKX")}, "weather", "Line 3: "),
+        ({"weather": "hello\nMETAR QJRR 011753Z 27012KT 10SM CLR 12/11 A2990"}, "weather", "Line 1: not the start of a report"),
+        ({"weather": "METAR " * 5000}, "weather", "At most 20,000 characters."),
+        ({"vmc_ceiling_ft": "20000"}, "vmc_ceiling_ft", "From 0 to 10,000 ft."),
+        ({"vmc_ceiling_ft": "9" * 40}, "vmc_ceiling_ft", "Not a valid integer value."),
+        ({"vmc_visibility_sm": "nan"}, "vmc_visibility_sm", "Give a number."),
+        ({"vmc_visibility_sm": "12"}, "vmc_visibility_sm", "From 0 to 10 SM."),
+    ]
+    for url in ("/plan/propose", "/plan/save"):
+        for fields, field, message in cases:
+            response = client.post(url, data={**base, **fields})
+            assert response.status_code == 400, (url, fields)
+            text = response.get_data(as_text=True)
+            error = re.search(rf'<p class="field-error" id="{field}-error">([^<]*)</p>', text)
+            assert error and message in error.group(1), (url, fields, error and error.group(1))
+            assert 'aria-invalid="true"' in text
+    assert stored_sessions(papp) == before
+
+
+def test_the_daylight_only_option_is_kept_on_the_proposals_page(papp: Flask) -> None:
+    client, token = _staff(papp)
+    page = client.post("/plan/propose", data={"csrf_token": token, "start": "2026-12-01", "end": "2026-12-10",
+                                              "daylight_only": "y"}).get_data(as_text=True)
+    assert "Daylight only for this plan, whatever the pilots&#39; night settings" in page
+    assert re.search(r'<input checked id="daylight_only" name="daylight_only" type="checkbox" value="y">', page)

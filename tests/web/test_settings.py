@@ -119,3 +119,38 @@ def test_an_account_without_a_logbook_gets_a_plain_page(client: FlaskClient) -> 
     sign_in(client, "wren")
     response = client.get("/settings")
     assert response.status_code == 200 and "keeps no logbook" in response.get_data(as_text=True)
+
+
+def _night(app: Flask, who: str) -> bool:
+    with app.app_context():
+        return services.get_pilot(db_session(), person_id(app, who)).night_practice
+
+
+def test_night_practice_is_off_by_default_and_the_pilot_or_an_instructor_can_allow_it(app: Flask, client: FlaskClient) -> None:
+    sign_in(client, "mara")
+    page = client.get("/settings").get_data(as_text=True)
+    assert re.search(r'<input id="night_practice" name="night_practice" type="checkbox" value="y">', page)  # unticked
+    assert "14 CFR 61.57(b)" in page and _night(app, "mara") is False
+    data = _form(client, "/settings")
+    assert client.post("/settings", data={**data, "night_practice": "y"}).status_code == 302
+    assert _night(app, "mara") is True
+    assert re.search(r'<input checked id="night_practice" name="night_practice" type="checkbox" value="y">',
+                     client.get("/settings").get_data(as_text=True))
+    assert client.post("/settings", data=_form(client, "/settings")).status_code == 302  # box left unticked
+    assert _night(app, "mara") is False
+
+    instructor = app.test_client()
+    sign_in(instructor, "hollis")
+    pid = person_id(app, "signe")
+    data = _form(instructor, f"/pilots/{pid}/settings")
+    assert instructor.post(f"/pilots/{pid}/settings", data={**data, "night_practice": "y"}).status_code == 302
+    assert _night(app, "signe") is True
+
+
+def test_a_refused_save_leaves_the_night_setting_as_it_was(app: Flask, client: FlaskClient) -> None:
+    sign_in(client, "mara")
+    data = _form(client, "/settings")
+    response = client.post("/settings", data={**data, "night_practice": "y", "timezone": "Mars/Olympus_Mons"})
+    assert response.status_code == 400 and _night(app, "mara") is False
+    # what was ticked stays ticked on the redisplayed form
+    assert re.search(r'<input checked id="night_practice"', response.get_data(as_text=True))
