@@ -338,11 +338,13 @@ def populate(url: str, scale: Scale, progress: Callable[[str], None] = say) -> d
 
         ids = Ids()
         started = last_report = time.perf_counter()
+        making = 0.0  # seconds spent generating entries and rows in Python (the rest is the database)
         batch = max(1, min(25, 20_000 // max(scale.entries, 1)))
         for first in range(0, scale.pilots, batch):
             rows: list[dict[str, Any]] = []
             approach_rows: list[dict[str, Any]] = []
             check_rows: list[dict[str, Any]] = []
+            t0 = time.perf_counter()
             for k in range(first, min(first + batch, scale.pilots)):
                 for entry in pilot_logbook(scale, k):
                     ids.entry += 1
@@ -350,6 +352,7 @@ def populate(url: str, scale: Scale, progress: Callable[[str], None] = say) -> d
                     rows.append(row)
                     approach_rows.extend(aps)
                     check_rows.extend(chs)
+            making += time.perf_counter() - t0
             with engine.begin() as conn:
                 conn.execute(sa.insert(t["entries"]), rows)
                 if approach_rows:
@@ -365,6 +368,7 @@ def populate(url: str, scale: Scale, progress: Callable[[str], None] = say) -> d
                 progress(f"  generated and stored {done}/{scale.pilots} pilots, {ids.entry:,} entries, "
                          f"{ids.approach:,} approaches ({rate:,.0f} entries/s, about {eta:.0f} s left)")
         counts.update(entries=ids.entry, approaches=ids.approach, checks=ids.check)
+        progress(f"  {making:.0f} s generating rows in Python, {time.perf_counter() - started - making:.0f} s inserting")
         with engine.begin() as conn:
             if conn.dialect.name == "postgresql":
                 # Explicit ids were given: move each table's id sequence past them so the app's inserts work.
@@ -507,14 +511,20 @@ def school_id(engine: Engine) -> int:
 
 
 def measure_overview(app: Any, engine: Engine, pilots: int, runs: int, budget: float) -> dict[str, Any]:
-    """(a) The overview request, signed in as the instructor, against ``bare_status_select``."""
+    """(a) The overview request, signed in as the instructor, against ``bare_status_select``.
+
+    A first request warms up (templates, rule sets, connection pool); when it
+    alone took longer than ``budget`` it is the measurement (one cold run).
+    """
     client = test_client_signed_in(app, instructor_email(0))
     school = school_id(engine)
+    pages: list[str] = []
 
     def request() -> None:
         response = client.get("/school")
         if response.status_code != 200:
             raise RuntimeError(f"overview answered {response.status_code}")
+        pages[:] = [response.get_data(as_text=True)]
 
     conn = engine.connect()
     try:
@@ -524,12 +534,17 @@ def measure_overview(app: Any, engine: Engine, pilots: int, runs: int, budget: f
                 raise RuntimeError(f"the bare SELECT returned {len(rows)} rows, not {pilots}")
             conn.rollback()  # end the read like a request ends its session
 
-        request(), select()  # warm-up: templates, rule sets, connection pools
-        best = timed({"overview request": request, "bare SELECT": select}, runs, budget)
+        t0 = time.perf_counter()
+        request()
+        first = time.perf_counter() - t0
+        select()
+        if first > budget:
+            best = {"overview request": (first, 0), **timed({"bare SELECT": select}, runs, budget)}
+        else:
+            best = timed({"overview request": request, "bare SELECT": select}, runs, budget)
     finally:
         conn.close()
-    page = client.get("/school").get_data(as_text=True)
-    shown = sum(1 for k in range(pilots) if f">{pilot_name(k)}<" in page)
+    shown = sum(1 for k in range(pilots) if f">{pilot_name(k)}<" in pages[0])
     return {"request": best["overview request"][0], "select": best["bare SELECT"][0],
             "rounds": best["overview request"][1], "pilots shown": shown}
 
@@ -920,6 +935,10 @@ def main(argv: list[str] | None = None) -> int:
     args = parser.parse_args(argv)
     if args.pilots < 1 or args.entries < 1:
         parser.error("--pilots and --entries must be at least 1")
+    if args.clients > args.pilots:
+        # Each client records flights for a pilot of its own: two new entries saved for one pilot at the
+        # same moment can be given the same ref, and the entry form does not yet handle that (answers 500).
+        parser.error("--clients: at most one client per pilot (give at most --pilots clients)")
     try:
         parse_mix(args.mix)
     except ValueError as exc:
@@ -958,8 +977,9 @@ def main(argv: list[str] | None = None) -> int:
             print(f"(a) overview request (instructor, test client): {a['request'] * 1000:10.1f} ms; "
                   f"bare SELECT of {scale.pilots} status rows: {a['select'] * 1000:8.2f} ms "
                   f"[{BASELINE_NOTE}]")
-            print(f"    ratio overview/SELECT = {a['request'] / a['select']:.1f}  (target <= 3); "
-                  f"fastest of {a['rounds']} runs; {a['pilots shown']}/{scale.pilots} pilots on the page")
+            runs_used = f"fastest of {a['rounds']} runs" if a["rounds"] else "one cold run (longer than --budget)"
+            print(f"    ratio overview/SELECT = {a['request'] / a['select']:.1f}  (target <= 3); {runs_used}; "
+                  f"{a['pilots shown']}/{scale.pilots} pilots on the page")
             say("measuring (b) the entry save ...")
             b = measure_save(app, engine, scale.pilots, args.runs, args.budget)
             print(f"(b) entry save, service path: {b['service'] * 1000:8.1f} ms; entry form POST: "
