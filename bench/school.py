@@ -496,7 +496,7 @@ def make_app(url: str) -> Any:
     return create_app(settings)
 
 
-def test_client_signed_in(app: Any, email: str) -> Any:
+def signed_in_client(app: Any, email: str) -> Any:
     client = app.test_client()
     token = csrf_token(client.get("/login").get_data(as_text=True))
     response = client.post("/login", data={"email": email, "password": PASSWORD, "csrf_token": token})
@@ -516,7 +516,7 @@ def measure_overview(app: Any, engine: Engine, pilots: int, runs: int, budget: f
     A first request warms up (templates, rule sets, connection pool); when it
     alone took longer than ``budget`` it is the measurement (one cold run).
     """
-    client = test_client_signed_in(app, instructor_email(0))
+    client = signed_in_client(app, instructor_email(0))
     school = school_id(engine)
     pages: list[str] = []
 
@@ -596,7 +596,7 @@ def measure_save(app: Any, engine: Engine, pilots: int, runs: int, budget: float
     k = pilots - 1  # the last pilot records the benchmark's flights
     pilot_id = INSTRUCTORS + k + 1
     sessions = make_session_factory(engine)
-    client = test_client_signed_in(app, pilot_email(k))
+    client = signed_in_client(app, pilot_email(k))
     token = csrf_token(client.get(f"/pilots/{pilot_id}/logbook/new").get_data(as_text=True))
     entries_table = models.Base.metadata.tables["entries"]
     counter = iter(range(1, 1_000_000))
