@@ -20,9 +20,9 @@ from typing import Any
 
 from typing import TypeVar
 
-from sqlalchemy import func, or_, select
+from sqlalchemy import func, or_, select, update
 from sqlalchemy.orm import Session, selectinload
-from sqlalchemy.exc import IntegrityError
+from sqlalchemy.exc import IntegrityError, OperationalError
 from sqlalchemy.orm.exc import StaleDataError
 
 from planner.core import logbook as core
@@ -438,6 +438,54 @@ def add_entries(
                 progress(f"stored {n}/{len(entries)} entries (not yet committed)")
     session.flush()
     return rows
+
+
+class PilotBusy(RuntimeError):
+    """The pilot's logbook is being written by another request and the lock did not come in time; try again."""
+
+
+def lock_pilot(session: Session, person: models.Person) -> None:
+    """Hold the pilot's logbook against other writers until the transaction ends.
+
+    Call it before reading what the new write depends on (the ids in use).
+    PostgreSQL locks the person row (``FOR NO KEY UPDATE``, the lock an
+    ordinary update of the row takes anyway); SQLite takes the database write
+    lock with a no-op ``UPDATE``. A SQLite lock not had within the busy
+    timeout raises ``PilotBusy``.
+    """
+    P = models.Person
+    if session.get_bind().dialect.name == "sqlite":
+        try:
+            session.execute(update(P.__table__).where(P.__table__.c.id == person.id).values(id=P.__table__.c.id))
+        except OperationalError as exc:
+            if "locked" not in str(exc.orig):
+                raise
+            raise PilotBusy(f"{person.name}'s logbook is busy with another save; try again in a moment") from None
+        return
+    session.execute(select(P.id).where(P.id == person.id).with_for_update(key_share=True)).all()
+
+
+def fresh_entry_id(session: Session, person: models.Person, base: str) -> str:
+    """``base``, or ``base-2``, ``base-3`` ... : the first id not used in the pilot's logbook (deleted entries count)."""
+    taken = entry_ids(session, person.id)
+    candidate, n = base, 1
+    while candidate in taken:
+        n += 1
+        candidate = f"{base}-{n}"
+    return candidate
+
+
+def add_new_entry(session: Session, person: models.Person, entry: core.Entry, *, base: str,
+                  now: datetime | None = None) -> models.Entry:
+    """Stage one new entry under the first free id from ``base`` (see ``fresh_entry_id``); return the row.
+
+    The pilot is locked first (``lock_pilot``), so two requests adding an
+    entry for the same pilot and day at the same moment get different ids
+    instead of one failing on the unique key.
+    """
+    lock_pilot(session, person)
+    entry = dataclasses.replace(entry, id=fresh_entry_id(session, person, base))
+    return add_entries(session, person, [entry], now=now)[0]
 
 
 def _claim_version(

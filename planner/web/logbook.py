@@ -143,14 +143,12 @@ def _choices(pilot: models.Person) -> dict[str, Any]:
 
 
 def _new_entry_id(pilot: models.Person, day: date) -> str:
-    """A fresh external id for a new entry: the date, with a counter when the day already has entries."""
-    taken = repository.entry_ids(db_session(), pilot.id)
-    base = f"{day.isoformat()}"
-    candidate, n = base, 1
-    while candidate in taken:
-        n += 1
-        candidate = f"{base}-{n}"
-    return candidate
+    """The external id a new entry would get now: the date, with a counter when the day already has entries.
+
+    Saving takes the id again under a lock (``repository.add_new_entry``), so
+    two saves for the same day at the same moment get different ids.
+    """
+    return repository.fresh_entry_id(db_session(), pilot, day.isoformat())
 
 
 def _checked(form: forms.EntryForm, entry_id: str, pilot: models.Person) -> tuple[forms.Built, bool]:
@@ -258,14 +256,19 @@ def create(pilot_id: int):  # type: ignore[no-untyped-def]
         return _render_form(form, pilot, row=None, notes=notes)
     session = db_session()
     try:
-        repository.add_entries(session, pilot, [built.entry])
+        row = repository.add_new_entry(session, pilot, built.entry, base=day.isoformat())
+        saved_ref = row.external_id
         session.commit()
     except repository.EntryRejected as exc:
         session.rollback()
         forms.place_problem(form, built, exc.field, _sentence(str(exc).split(": ", 1)[-1]))
         return _render_form(form, pilot, row=None, status=422)
+    except repository.PilotBusy as exc:
+        session.rollback()
+        flash(f"Not saved: {exc}.")
+        return _render_form(form, pilot, row=None, status=409)
     flash(f"Entry of {built.entry.date.isoformat()} saved.")
-    return redirect(url_for("logbook.show", pilot_id=pilot.id, ref=built.entry.id))
+    return redirect(url_for("logbook.show", pilot_id=pilot.id, ref=saved_ref))
 
 
 @bp.route("/pilots/<int:pilot_id>/logbook/from-session")

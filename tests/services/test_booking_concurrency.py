@@ -25,6 +25,7 @@ from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 from datetime import UTC, date, datetime, timedelta
 from pathlib import Path
+from typing import Any
 
 import pytest
 from sqlalchemy import Engine, func, or_, select
@@ -139,22 +140,22 @@ def store(engine: Engine, prop: planning.Proposal, *, status: str = "proposed") 
 class Outcome:
     ok: bool
     error: Exception | None = None
-    result: int | None = None
+    result: Any = None
 
 
-def race(engine: Engine, attempts: list[Callable[[Session], int | None]]) -> list[Outcome]:
+def race(engine: Engine, attempts: list[Callable[[Session], Any]]) -> list[Outcome]:
     """Run every attempt in its own thread and connection, released together; commit each that succeeds."""
     barrier = threading.Barrier(len(attempts))
     factory = make_session_factory(engine)
 
-    def run(attempt: Callable[[Session], int | None]) -> Outcome:
+    def run(attempt: Callable[[Session], Any]) -> Outcome:
         with factory() as s:
             s.connection()  # this attempt's own connection, opened before the start
             barrier.wait(timeout=120)
             try:
                 result = attempt(s)
                 s.commit()
-            except (planning.SessionRejected, planning.SessionConflict, EntryConflict) as exc:
+            except (planning.SessionRejected, planning.SessionConflict, EntryConflict, repository.PilotBusy) as exc:
                 s.rollback()
                 return Outcome(False, exc)
             return Outcome(True, result=result)
@@ -388,6 +389,52 @@ def test_fifty_saves_of_one_entry_from_the_same_version_land_once(race_engine: E
     with make_session_factory(race_engine)() as s:
         row = repository.find_entry(s, pilot_id, ENTRY.id)
         assert (row.holds, row.version, len(repository.history(s, row))) == (winner.result, 2, 1)
+
+
+def test_fifty_new_entries_for_one_pilot_and_day_at_once_all_land_under_different_refs(race_engine: Engine) -> None:
+    # The entry form's save path (repository.add_new_entry): the id is the date, with a counter when the
+    # day already has entries. Fifty saves for the same day at once must neither fail on the unique key
+    # nor share an id: each is locked against the others and takes the next free one.
+    pilot_id = _entry_pilot(race_engine)
+    day = date(2027, 2, 21)
+
+    def add(n: int) -> Callable[[Session], str]:
+        def attempt(s: Session) -> str:
+            pilot = s.get(models.Person, pilot_id)
+            entry = dataclasses.replace(ENTRY, id="preview", date=day, holds=n % 5)
+            return repository.add_new_entry(s, pilot, entry, base=day.isoformat(), now=NOW).external_id
+        return attempt
+
+    outcomes = race(race_engine, [add(i) for i in range(ATTEMPTS)])
+    assert [str(o.error) for o in outcomes if not o.ok] == []
+    refs = {o.result for o in outcomes}
+    assert refs == {day.isoformat()} | {f"{day.isoformat()}-{n}" for n in range(2, ATTEMPTS + 1)}
+    with make_session_factory(race_engine)() as s:
+        stored = repository.entry_ids(s, pilot_id)
+    assert stored == refs | {ENTRY.id}
+
+
+def test_a_sqlite_entry_save_that_cannot_get_the_write_lock_is_refused_with_a_message(tmp_path: Path) -> None:
+    import sqlite3
+
+    path = tmp_path / "busy-entry.sqlite3"
+    migrate.upgrade(f"sqlite:///{path}")
+    engine = make_engine(f"sqlite:///{path}", poolclass=NullPool, connect_args={"timeout": 0.05})
+    pilot_id = _entry_pilot(engine)
+    holder = sqlite3.connect(path)
+    try:
+        holder.execute("BEGIN IMMEDIATE")  # another writer holds the database
+        with make_session_factory(engine)() as s:
+            pilot = s.get(models.Person, pilot_id)
+            with pytest.raises(repository.PilotBusy, match="logbook is busy with another save; try again"):
+                repository.add_new_entry(s, pilot, dataclasses.replace(ENTRY, id="x"), base="2027-02-22", now=NOW)
+            s.rollback()
+    finally:
+        holder.rollback()
+        holder.close()
+    with make_session_factory(engine)() as s:
+        assert repository.entry_ids(s, pilot_id) == {ENTRY.id}
+    engine.dispose()
 
 
 def test_a_sqlite_booking_that_cannot_get_the_write_lock_is_refused_with_a_message(tmp_path: Path) -> None:
