@@ -19,7 +19,6 @@ memory: every worker reads the same rows.
 from __future__ import annotations
 
 from collections.abc import Callable, Iterable
-from datetime import date
 from typing import Any
 
 from sqlalchemy import and_, event, func, inspect, or_, select
