@@ -9,10 +9,13 @@ airfield XQA1; pilots are numbered, not named):
   best of ``--repeat`` runs) and how many pilots in need got a session;
 * quality: many small instances (<= 6 pilots, <= 8 slots), the plan's objective
   against the exhaustive optimum of the same objective; prints the minimum and
-  mean ratio (target >= 0.95 on every instance).
+  mean ratio (target >= 0.95 on every instance). Two families: ``small`` (the
+  large school's generator on a few days) and ``dense small`` (drawn like the
+  generated schools of the hypothesis property in tests/core/test_scheduling.py,
+  where sessions compete harder for people and aircraft).
 
-Run from the repository root: ``python bench/planner.py`` (``--small N`` sets
-the number of small instances).
+Run from the repository root: ``python bench/planner.py`` (``--small N`` and
+``--dense N`` set the number of instances of each family).
 """
 
 from __future__ import annotations
@@ -104,9 +107,68 @@ def small_instance(rng: random.Random) -> s.Problem:
     return s.Problem(prob.pilots, prob.aircraft, slots, prob.availability, prob.bookings, prob.balance)
 
 
+def dense_instance(rng: random.Random) -> s.Problem:
+    """A small school drawn like ``instances()`` in tests/core/test_scheduling.py: up to 6 pilots, up to 8
+    slots over 5 days, mostly eligible pilots with generous but partial availability, so sessions compete
+    for pilots, safety pilots and aircraft."""
+    slots = []
+    for _ in range(rng.randint(2, 8)):
+        hour = rng.choice([8, 9, 11, 14, 19])
+        start = at(rng.randint(0, 4), hour)
+        slots.append(s.SlotInfo(start, start + timedelta(hours=rng.choice([2, 3, 4])), FIELD, hour < 18,
+                                rng.choice([None, 0.1, 0.5, 0.9])))
+    slots = list(dict.fromkeys(slots))
+    planes = [s.Aircraft("N101XQ", SEL, dual_controls=True, airfield=FIELD)]
+    if rng.random() < 0.5:
+        planes.append(s.Aircraft("N102XQ", rng.choice([SEL, SEL, MEL]), dual_controls=rng.choice([True, True, False]),
+                                 airfield=FIELD))
+    pilots = []
+    for k in range(rng.randint(3, 6)):
+        needs = tuple(s.Need(f"p{k}-n{j}", DAY0 + timedelta(days=rng.randint(-1, 6)), overdue=rng.random() < 1 / 3)
+                      for j in range(rng.choice([0, 1, 1, 1, 2])))
+        pilots.append(s.PilotInfo(
+            id=f"p{k}", needs=needs, certificate=rng.choice(["private"] * 3 + ["commercial", "atp", "student"]),
+            category_classes=rng.choice([(SEL,), (SEL,), (SEL, MEL), (MEL,)]),
+            medical_until=DAY0 + timedelta(days=rng.choice([-1, 2, 30, 30, 30, 30])),
+            willing_safety_pilot=rng.random() < 0.75, allow_night=rng.random() < 0.5,
+            session_minutes=rng.choice([60, 90, 120]),
+        ))
+    availability = {}
+    for rid in [p.id for p in pilots] + [a.id for a in planes]:
+        availability[rid] = tuple(s.Window(at(d, rng.choice([7, 7, 7, 10])), at(d, rng.choice([15, 23, 23, 23])))
+                                  for d in rng.sample(range(5), rng.randint(3, 5)))
+    bookings = [s.Booking(rng.choice(list(availability)), at(d, 9), at(d, 12))
+                for d in (rng.randint(0, 4) for _ in range(rng.randint(0, 2)))]
+    balance = {(a.id, b.id): rng.randint(0, 3) for a in pilots for b in pilots if a is not b and rng.random() < 0.5}
+    return s.Problem(tuple(pilots), tuple(planes), tuple(slots), availability, tuple(bookings), balance)
+
+
+def quality(label: str, make, rng: random.Random, count: int) -> None:
+    """Print the plan's objective against the exhaustive optimum over ``count`` instances from ``make``."""
+    ratios = []
+    worst_exhaustive = worst_plan = 0.0
+    for _ in range(count):
+        prob = make(rng)
+        t0 = time.perf_counter()
+        got = s.plan(prob).objective
+        worst_plan = max(worst_plan, time.perf_counter() - t0)
+        t0 = time.perf_counter()
+        best = s.exhaustive_best(prob)
+        worst_exhaustive = max(worst_exhaustive, time.perf_counter() - t0)
+        if best > 0:
+            ratios.append(got / best)
+    print(f"{label}: {count} instances, {len(ratios)} with at least one feasible session")
+    if ratios:
+        below = sum(1 for r in ratios if r < 1 - 1e-9)
+        print(f"  plan / exhaustive optimum: min {min(ratios):.4f}, mean {sum(ratios) / len(ratios):.5f} "
+              f"(target >= 0.95); below optimum on {below} instances; slowest plan {worst_plan:.3f} s, "
+              f"slowest exhaustive search {worst_exhaustive:.3f} s")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--small", type=int, default=300, help="number of small instances for the quality ratio")
+    ap.add_argument("--dense", type=int, default=2000, help="number of dense small instances for the quality ratio")
     ap.add_argument("--repeat", type=int, default=3, help="timing runs of the large instance (best is reported)")
     ap.add_argument("--seed", type=int, default=20250602)
     args = ap.parse_args()
@@ -125,26 +187,11 @@ def main() -> None:
     print(f"large: 200 pilots ({needing} in need, {needs} needs), 12 aircraft, 28 days, {len(big.slots)} slots")
     print(f"  plan time: {min(times):.3f} s (best of {len(times)}; target <= 2 s)")
     print(f"  sessions: {len(result.sessions)} ({mutual} mutual); pilots in need scheduled: {scheduled}/{needing}; "
-          f"needs unmet: {len(result.unmet)}/{needs}")
+          f"needs unmet: {len(result.unmet)}/{needs}; objective {result.objective:.1f}")
 
-    ratios = []
-    nontrivial = 0
-    worst_exhaustive = 0.0
-    for _ in range(args.small):
-        prob = small_instance(rng)
-        got = s.plan(prob).objective
-        t0 = time.perf_counter()
-        best = s.exhaustive_best(prob)
-        worst_exhaustive = max(worst_exhaustive, time.perf_counter() - t0)
-        if best > 0:
-            nontrivial += 1
-            ratios.append(got / best)
-    print(f"small: {args.small} instances (<= 6 pilots, <= 8 slots), {nontrivial} with at least one feasible session")
-    if ratios:
-        below = sum(1 for r in ratios if r < 1 - 1e-9)
-        print(f"  plan / exhaustive optimum: min {min(ratios):.4f}, mean {sum(ratios) / len(ratios):.4f} "
-              f"(target >= 0.95); below optimum on {below} instances; slowest exhaustive search {worst_exhaustive:.3f} s")
-
+    quality("small (<= 6 pilots, <= 8 slots)", small_instance, rng, args.small)
+    quality("dense small (drawn like the generated schools of tests/core/test_scheduling.py)", dense_instance,
+            random.Random(args.seed + 1), args.dense)
 
 if __name__ == "__main__":
     main()

@@ -49,9 +49,18 @@ worth more to its own pilots than what they have, take out every session that
 clashes with it and re-fill greedily; finally, on the best plan, the same move
 followed by local improvement of the perturbed plan (catches chains such as
 "A takes B's slot, B moves to C's, C pairs up with D"), most promising first,
-within a fixed effort bound (``DEEP_WORK`` options evaluated).
+within a fixed effort bound (``DEEP_WORK`` options evaluated). Last, on every
+instance, a large-neighbourhood search: take out one session, two related
+sessions, or on plans of up to ``LNS_TRIPLES`` sessions three, and re-plan by
+branch and bound the pilots they freed with the unscheduled pilots who could use
+the freed slots (at most ``SUB_PILOTS`` pilots; the rest of the plan stays), kept
+when the objective rises (catches plans where a mutual session must give way to
+two or three single sessions, which no greedy re-fill tries). Its effort is
+bounded by ``SUB_WORK`` per re-plan and ``LNS_WORK`` in all, so on a large
+school it stops early instead of growing exponentially. Everything is
+deterministic (fixed orders, no random numbers).
 ``exhaustive_best`` finds the true optimum of the same objective by branch and
-bound for small instances (measurement only).
+bound for small instances (measurement only; ``plan`` never calls it).
 """
 
 from __future__ import annotations
@@ -74,6 +83,11 @@ SAFETY_PILOT_CERTIFICATES = ("private", "commercial", "atp")
 CERTIFICATES = ("student", "sport", "recreational") + SAFETY_PILOT_CERTIFICATES
 _PF_BOUND_EXTRA = max(W_MUTUAL / 2, 2 * W_FAIR)
 DEEP_WORK = 20_000  # options the final deep ejection pass may evaluate (deterministic effort bound)
+# large-neighbourhood search (``_lns``): explicit constants, so its effort has a fixed ceiling
+SUB_PILOTS = 6  # pilots re-planned together in one neighbourhood
+SUB_WORK = 4_000  # units of ``_State.work`` one neighbourhood's re-plan may spend
+LNS_WORK = 100_000  # units of ``_State.work`` the whole search may spend (about 0.15 s on the bench's school)
+LNS_TRIPLES = 8  # plans of at most this many sessions also have three related sessions re-planned together
 
 
 # ----------------------------------------------------------------- inputs
@@ -401,7 +415,7 @@ class _State:
         self._abs0 = sum(abs(v) for v in model.net0.values())
         self._abs = self._abs0
         self._base = 0.0
-        self.work = 0  # options evaluated by best_option: a deterministic measure of search effort
+        self.work = 0  # options evaluated, people scanned, sessions tried: a deterministic measure of search effort
 
     def copy_sessions(self) -> list[_Session]:
         return list(self.sessions)
@@ -716,6 +730,199 @@ def _deep_pass(st: _State, order: Sequence[str], catalogue: dict[str, list[_Sess
             current = st.objective()
 
 
+# ------------------------------------------- neighbourhood re-optimisation
+#
+# Large-neighbourhood search: take one session, two related sessions or (on plans of up to ``LNS_TRIPLES``
+# sessions) three out, then re-plan by branch and bound the pilots they freed together with the unscheduled
+# pilots who could use the freed slots (at most ``SUB_PILOTS`` pilots), every other session staying where it
+# is. A re-plan may spend ``SUB_WORK`` and the whole pass ``LNS_WORK`` units of ``_State.work`` (options
+# generated, people scanned, sessions tried), so its effort has a fixed ceiling whatever the size of the
+# school; a re-plan is kept only when the objective rises.
+
+
+def _planes_by_class(m: _Model, planes: Sequence[str], k: int) -> list[str]:
+    """At most ``k`` aircraft of each category and class (aircraft of one class are interchangeable here)."""
+    seen: dict[str, int] = {}
+    out = []
+    for a in planes:
+        cc = m.aircraft[a].category_class
+        if seen.get(cc, 0) < k:
+            seen[cc] = seen.get(cc, 0) + 1
+            out.append(a)
+    return out
+
+
+def _sub_options(st: _State, pid: str, partners: Sequence[str], group: frozenset, k: int):
+    """Feasible sessions for ``pid`` in the current state, for the neighbourhood search.
+
+    Mutual sessions only with ``partners`` (pilots of the neighbourhood not placed yet). To keep the search
+    small, safety pilots are every eligible pilot of the neighbourhood ``group`` and only the ``k`` others
+    best for the balance, and at most ``k`` aircraft of each category and class are offered (the
+    neighbourhood has fewer than ``k`` other sessions to compete with for them).
+    """
+    m = st.m
+    p = m.pilots[pid]
+    out = []
+    for i in m.pf_slots[pid]:
+        if not st.is_free(pid, i):
+            continue
+        slot = m.slots[i]
+        planes = _planes_by_class(m, [a for a in m.pf_planes[(pid, i)] if st.is_free(a, i)], k)
+        if not planes:
+            continue
+        sp_at = m.sp_at[i]
+        v_p = m.value[(pid, i)]
+        for q in partners:
+            q_planes = m.pf_planes.get((q, i))
+            if not q_planes or not st.is_free(q, i) or slot.minutes < p.session_minutes + m.pilots[q].session_minutes:
+                continue
+            for a in planes:
+                if a in q_planes and q in sp_at[a] and pid in sp_at[a]:
+                    val = v_p + m.value[(q, i)] + W_MUTUAL
+                    out.append((val, len(out), _Session(i, a, (pid, q), (q, pid), val)))
+        free = [q for q in m.people_at[i] if q != pid and st.is_free(q, i)]
+        st.work += len(free)
+        for a in planes:
+            inside, others = [], []
+            for n, q in enumerate(free):
+                if q in sp_at[a]:
+                    (inside if q in group else others).append((-st.fair_delta(q, pid), n, q))
+            others.sort()
+            for neg, _n, q in inside + others[:k]:
+                out.append((v_p - neg, len(out), _Session(i, a, (pid,), (q,), v_p)))
+    st.work += len(out)
+    return [(val, ses) for val, _n, ses in out]
+
+
+def _open_bound(st: _State, pid: str) -> float:
+    """An upper bound of what ``pid`` can add to the current state, like ``_Model.ub`` but over the slots
+    still open to the pilot and an aircraft (adding sessions only closes slots, so it stays valid)."""
+    m = st.m
+    open_values = [
+        m.value[(pid, i)] for i in m.pf_slots[pid]
+        if st.is_free(pid, i) and any(st.is_free(a, i) for a in m.pf_planes[(pid, i)])
+    ]
+    return max(open_values) + _PF_BOUND_EXTRA if open_values else 0.0
+
+
+def _subsolve(st: _State, pilots: Sequence[str], incumbent: float, limit: int) -> tuple[float, list[_Session]]:
+    """Sessions to add for ``pilots`` to the current state worth more than ``incumbent``, by branch and bound.
+
+    Stops early once ``st.work`` reaches ``limit``; returns (objective gain, sessions), the sessions empty
+    when nothing beats the incumbent, and leaves the state's sessions as they were.
+    """
+    m = st.m
+    ub = {q: _open_bound(st, q) for q in pilots}
+    order = sorted(pilots, key=lambda q: -ub[q])
+    group = frozenset(pilots)
+    k = len(pilots)
+    best: list = [incumbent, []]
+    chosen: list[_Session] = []
+
+    def dfs(n: int, value: float) -> None:
+        if value > best[0] + 1e-9:
+            best[0], best[1] = value, list(chosen)
+        if n == len(order) or st.work >= limit:
+            return
+        if value + sum(ub[q] for q in order[n:] if q not in st.flying) <= best[0] + 1e-9:
+            return
+        pid = order[n]
+        if pid in st.flying:
+            dfs(n + 1, value)
+            return
+        later = [q for q in order[n + 1 :] if q not in st.flying]
+        rest = sum(ub[q] for q in later)
+        # most promising first: what an option adds beyond the bound of the partner it takes along
+        options = sorted(
+            ((val - sum(ub[q] for q in ses.pfs[1:]), n_opt, val, ses)
+             for n_opt, (val, ses) in enumerate(_sub_options(st, pid, later, group, k))),
+            key=lambda o: (-o[0], o[1]),
+        )
+        for promise, _n_opt, val, ses in options:
+            if st.work >= limit:
+                break
+            if value + promise + rest <= best[0] + 1e-9:
+                break  # sorted: none of the remaining options can beat the incumbent either
+            st.work += 1
+            st.add(ses)
+            chosen.append(ses)
+            dfs(n + 1, value + val)
+            chosen.pop()
+            st.remove(ses)
+        dfs(n + 1, value)
+
+    dfs(0, 0.0)
+    return best[0], best[1]
+
+
+def _try_replan(st: _State, ruin: Sequence[_Session], order: Sequence[str], limit: int) -> bool:
+    """Take ``ruin`` out and re-plan its neighbourhood by branch and bound; keep it only if the objective rises."""
+    current = st.objective()
+    st.work += 1
+    for g in ruin:
+        st.remove(g)
+    freed = [pf for g in ruin for pf in g.pfs]
+    pilots = (freed + _touched(st, ruin, order, freed))[:SUB_PILOTS]
+    base = st.objective()
+    _gain, sessions = _subsolve(st, pilots, current - base, min(limit, st.work + SUB_WORK))
+    if sessions:
+        for g in sessions:
+            st.add(g)
+        if st.objective() > current + 1e-9:
+            return True
+        for g in sessions:
+            st.remove(g)
+    for g in ruin:
+        st.add(g)
+    return False
+
+
+def _related(m: _Model, a: _Session, b: _Session) -> bool:
+    """Whether ``a`` and ``b`` interact directly: overlapping slots, a person in both, or a pilot of one
+    who could fly in the other's slot (re-planning unrelated sessions together rarely finds more)."""
+    if a.slot in m.conflicts[b.slot] or set(a.pfs + a.sps) & set(b.pfs + b.sps):
+        return True
+    return any((pf, b.slot) in m.pf_planes for pf in a.pfs) or any((pf, a.slot) in m.pf_planes for pf in b.pfs)
+
+
+def _neighbourhoods(st: _State, limit: int):
+    """Ruins to try, lazily (each relation test counts as work, none once ``st.work`` reaches ``limit``):
+    each session, each two related sessions, and on plans of up to ``LNS_TRIPLES`` sessions each three
+    sessions linked by two relations."""
+    m = st.m
+    ses = list(st.sessions)
+    for a in ses:
+        yield (a,)
+    for n in range(len(ses)):
+        for k in range(n + 1, len(ses)):
+            if st.work >= limit:
+                return
+            st.work += 1
+            if _related(m, ses[n], ses[k]):
+                yield (ses[n], ses[k])
+    if len(ses) <= LNS_TRIPLES:
+        rel = {(n, k) for n in range(len(ses)) for k in range(n + 1, len(ses)) if _related(m, ses[n], ses[k])}
+        for n in range(len(ses)):
+            for k in range(n + 1, len(ses)):
+                for j in range(k + 1, len(ses)):
+                    if ((n, k) in rel) + ((n, j) in rel) + ((k, j) in rel) >= 2:
+                        yield (ses[n], ses[k], ses[j])
+
+
+def _lns(st: _State, order: Sequence[str], limit: int) -> None:
+    """Neighbourhood re-optimisation until no ruin improves the plan or ``st.work`` reaches ``limit``."""
+    while st.work < limit:
+        improved = False
+        for ruin in _neighbourhoods(st, limit):
+            if st.work >= limit:
+                break
+            if any(g not in st.sessions for g in ruin):
+                continue
+            improved = _try_replan(st, ruin, order, limit) or improved
+        if not improved:
+            break
+
+
 def _orders(model: _Model) -> list[list[str]]:
     by_deadline = sorted(model.needing, key=lambda p: (_deadline(model, p), len(model.pf_slots[p]), p))
     by_options = sorted(model.needing, key=lambda p: (len(model.pf_slots[p]), _deadline(model, p), p))
@@ -732,7 +939,9 @@ def plan(problem: Problem, max_rounds: int = 3, pair_moves: bool | None = None) 
 
     ``max_rounds`` bounds the local-improvement passes; ``pair_moves`` (default:
     on for up to 40 pilots in need) also tries removing two sessions at once,
-    and the ejection moves (``_insertion_pass``, ``_deep_pass``).
+    and the ejection moves (``_insertion_pass``, ``_deep_pass``). The
+    large-neighbourhood search (``_lns``) runs last on every instance, within
+    its fixed effort bound.
     """
     model = _Model(problem)
     if pair_moves is None:
@@ -759,6 +968,7 @@ def plan(problem: Problem, max_rounds: int = 3, pair_moves: bool | None = None) 
             _deep_pass(best, best_order, catalogue, budget)
             if best.work >= budget or best.objective() <= before + 1e-9:
                 break
+    _lns(best, best_order, best.work + LNS_WORK)
     return _report(model, best)
 
 
