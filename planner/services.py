@@ -75,7 +75,7 @@ def load_logbook(session: Session, pilot_id: int) -> Logbook:
     Raises ``LookupError`` when there is no such pilot.
     """
     person = get_pilot(session, pilot_id)
-    return repository.to_logbook(person, repository.current_entries(session, pilot_id))
+    return repository.current_logbook(session, person)
 
 
 def export_logbook(session: Session, pilot_id: int) -> Logbook:

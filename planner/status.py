@@ -184,7 +184,7 @@ def stale_reason(revision: int, kept: models.KeptStatus | None, as_of: date) -> 
 
 def _evaluate(session: Session, person: models.Person, as_of: date, logbook: Logbook | None = None) -> currency.CurrencyReport:
     if logbook is None:
-        logbook = repository.to_logbook(person, repository.current_entries(session, person.id))
+        logbook = repository.current_logbook(session, person)
     return currency.evaluate(logbook, services.rule_sets_for(person), as_of)
 
 
