@@ -1,7 +1,9 @@
 """Rows <-> core dataclasses, and the only ways to change a logbook entry.
 
 The core never sees ORM objects: ``to_logbook`` turns a person and their
-entry rows into a frozen ``planner.core.logbook.Logbook``. Writes go through
+entry rows into a frozen ``planner.core.logbook.Logbook``, and
+``current_logbook`` reads one straight from plain rows (the quick way to
+evaluate a whole logbook). Writes go through
 ``add_entries``, ``revise_entry``, ``delete_entry`` and ``restore_entry``,
 which validate first (so a bad value gets a message naming the entry and the
 field, not a constraint error), keep the previous state of every changed
