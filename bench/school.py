@@ -3,13 +3,15 @@
 Generates an invented school (seeded; pilots are numbered, not named) of
 500 pilots x 2,000 logbook entries each, into a fresh database whose schema
 comes from the project's migrations (the real indexes), with SQLAlchemy Core
-bulk inserts. Then measures, in one run:
+bulk inserts; then fills the kept-current statuses with the daily refresh
+(``planner.status.refresh``, timed and printed). Then measures, in one run:
 
 (a) the school overview page (Flask test client, signed in as the school's
-    instructor) against a bare SELECT of the 500 pilots' status rows
+    instructor) against a bare SELECT of the 500 pilots' kept status rows
     (target <= 3x);
-(b) saving one entry through the app's service path, and through the entry
-    form (one POST), against a bare INSERT of one entry row;
+(b) saving one entry through the app's service path (which re-evaluates the
+    pilot's kept status before the commit, as the entry form does), and
+    through the entry form (one POST), against a bare INSERT of one entry row;
 (c) a load run: the app under gunicorn with several worker processes on
     loopback, driven from this process by client threads (each signed in as a
     pilot and as the instructor, CSRF tokens taken from the forms) with a mix
@@ -24,7 +26,8 @@ which the measured functions take turns, as in bench/engine.py.
     python bench/school.py --pilots 20 --entries 100 --seconds 5   # a quick run
 
 SQLite: the generated file is cached under the system's temp directory, keyed by
-the parameters and the schema revision; each run works on a copy. PostgreSQL:
+the parameters, the schema revision and the rules digest of the kept statuses;
+each run works on a copy. PostgreSQL:
 the URL names a server and an existing database to connect to; the benchmark
 creates a throwaway database beside it and drops it at the end. The load run
 needs gunicorn (``pip install -e '.[school]'``); ``--no-load`` skips it.
@@ -35,6 +38,7 @@ from __future__ import annotations
 import argparse
 import http.client
 import importlib.util
+import json
 import os
 import platform
 import random
@@ -74,7 +78,7 @@ from planner.db.session import make_engine, make_session_factory  # noqa: E402
 AS_OF = date(2026, 12, 1)  # PLANNER_TODAY for every measurement (the demo scenario's date)
 STAMP = datetime(2026, 12, 1, tzinfo=UTC)  # created_at / updated_at of generated rows
 PASSWORD = "bench-school-password-1"  # every generated account's (invented) password
-GENERATOR_VERSION = 2  # bump when the generated data changes, so cached files are rebuilt
+GENERATOR_VERSION = 3  # bump when the generated data changes, so cached files are rebuilt (3: kept statuses filled)
 SCHOOL_SLUG = "bench-school"
 TIMEZONE = "America/Denver"
 # Invented airfields (the XQ.. identifiers are not real) and the runways their approaches use.
@@ -298,10 +302,12 @@ def _person(id_: int, name: str, email: str, password_hash: str, *, pilot: bool,
     }
 
 
-def populate(url: str, scale: Scale, progress: Callable[[str], None] = say) -> dict[str, int]:
-    """Create the schema at ``url`` with the migrations, then bulk-insert the generated school. Returns row counts.
+def populate(url: str, scale: Scale, progress: Callable[[str], None] = say) -> dict[str, Any]:
+    """Create the schema at ``url`` with the migrations, bulk-insert the generated school, fill the kept statuses.
 
-    Entries go in with Core ``insert`` executemany, a few pilots per transaction.
+    Entries go in with Core ``insert`` executemany, a few pilots per
+    transaction; then ``after_load`` runs the daily refresh. Returns row
+    counts and ``refresh_seconds``.
     """
     migrate.upgrade(url)
     engine = make_engine(url, foreign_keys=False)
@@ -310,7 +316,8 @@ def populate(url: str, scale: Scale, progress: Callable[[str], None] = say) -> d
     rnd = random.Random(f"{scale.seed}/school")
     password_hash = generate_password_hash(PASSWORD)
     links: dict[str, int] = {}
-    counts = {"pilots": scale.pilots, "instructors": INSTRUCTORS, "entries": 0, "approaches": 0, "checks": 0}
+    counts: dict[str, Any] = {"pilots": scale.pilots, "instructors": INSTRUCTORS, "entries": 0, "approaches": 0,
+                              "checks": 0}
     try:
         with engine.begin() as conn:
             conn.execute(sa.insert(t["airfields"]), [
@@ -379,19 +386,41 @@ def populate(url: str, scale: Scale, progress: Callable[[str], None] = say) -> d
         if engine.dialect.name == "postgresql":
             with engine.connect().execution_options(isolation_level="AUTOCOMMIT") as conn:
                 conn.execute(sa.text("ANALYZE"))  # what autovacuum would do soon after a bulk load
-        after_load(engine)
+        counts["refresh_seconds"] = after_load(engine, progress)
     finally:
         engine.dispose()
     return counts
 
 
-def after_load(engine: Engine) -> None:
-    """Bring derived data up to date after the bulk load (nothing yet).
+def after_load(engine: Engine, progress: Callable[[str], None] = say) -> float:
+    """Fill the kept-current status rows as the scheduled ``planner refresh --as-of AS_OF`` would; return its seconds.
 
-    When the kept-current pilot status table lands, fill it here (as the
-    scheduled ``planner refresh`` would) so that the overview reads it; and
-    bump ``GENERATOR_VERSION``.
+    The same code path as the command (``planner.status.refresh``, a commit
+    every 100 pilots), so that the overview finds every pilot's status current
+    and the figure printed is what a school of this size costs once a day.
     """
+    from planner import status
+
+    pilots = _count(engine, "SELECT COUNT(*) FROM people WHERE is_pilot = :yes", yes=True)
+    entries = _count(engine, "SELECT COUNT(*) FROM entries")
+    started = time.perf_counter()
+
+    def told(message: str) -> None:
+        progress(f"  refresh: {message} ({time.perf_counter() - started:.0f} s)")
+
+    with make_session_factory(engine)() as session:
+        report = status.refresh(session, AS_OF, progress=told, checkpoint=session.commit)
+        session.commit()
+    elapsed = time.perf_counter() - started
+    if report.current != 0 or report.evaluated != pilots:
+        raise RuntimeError(f"refresh after the load re-evaluated {report.evaluated} of {pilots} pilots")
+    progress(f"  refresh of {pilots} pilots ({entries:,} entries) took {elapsed:.1f} s")
+    return elapsed
+
+
+def _count(engine: Engine, sql: str, **params: Any) -> int:
+    with engine.connect() as conn:
+        return int(conn.execute(sa.text(sql), params).scalar_one())
 
 
 def schema_head() -> str:
@@ -400,26 +429,45 @@ def schema_head() -> str:
     return ScriptDirectory.from_config(migrate.alembic_config()).get_current_head() or "none"
 
 
-def sqlite_database(scale: Scale, work_dir: Path, cache_dir: Path | None) -> tuple[str, float, bool]:
-    """A SQLite copy of the generated school in ``work_dir``: (url, seconds spent generating, came from cache).
+def cache_key(scale: Scale) -> str:
+    """What a cached SQLite file depends on: the scale, the schema's head revision and the rules digest.
 
-    With ``cache_dir`` the generated file is kept there, keyed by the scale and
-    the schema's head revision, and later runs copy it instead of generating.
+    The digest changes with the engine and rule-set files; kept statuses made
+    under another one would all be stale, and the first overview would
+    re-evaluate the whole school.
+    """
+    from planner import status
+
+    return f"{scale.key}-{schema_head()}-r{status.RULES_DIGEST}"
+
+
+def sqlite_database(scale: Scale, work_dir: Path, cache_dir: Path | None) -> tuple[str, dict[str, float], bool]:
+    """A SQLite copy of the generated school in ``work_dir``: (url, timings, came from cache).
+
+    ``timings``: ``generated`` (seconds for migrations, inserts and refresh)
+    and ``refresh`` (the refresh alone), measured when the file was made. With
+    ``cache_dir`` the generated file is kept there (with its timings beside
+    it), keyed by ``cache_key``, and later runs copy it instead of generating.
     """
     target = work_dir / "school.sqlite3"
-    cached = cache_dir / f"school-{scale.key}-{schema_head()}.sqlite3" if cache_dir else None
+    cached = cache_dir / f"school-{cache_key(scale)}.sqlite3" if cache_dir else None
     if cached is not None and cached.exists():
         shutil.copyfile(cached, target)
-        return f"sqlite:///{target}", 0.0, True
+        try:
+            timings = json.loads(cached.with_suffix(".json").read_text(encoding="utf-8"))
+        except (OSError, ValueError):
+            timings = {}
+        return f"sqlite:///{target}", timings, True
     t0 = time.perf_counter()
-    populate(f"sqlite:///{target}", scale)
-    elapsed = time.perf_counter() - t0
+    counts = populate(f"sqlite:///{target}", scale)
+    timings = {"generated": time.perf_counter() - t0, "refresh": counts["refresh_seconds"]}
     if cached is not None:
         cached.parent.mkdir(parents=True, exist_ok=True)
         partial = cached.with_suffix(f".{os.getpid()}.partial")
         shutil.copyfile(target, partial)
+        cached.with_suffix(".json").write_text(json.dumps(timings), encoding="utf-8")
         os.replace(partial, cached)  # never a half-written cache file
-    return f"sqlite:///{target}", elapsed, False
+    return f"sqlite:///{target}", timings, False
 
 
 @contextmanager
@@ -441,18 +489,21 @@ def throwaway_postgres(admin_url: str) -> Iterator[str]:
 
 
 def bare_status_select(conn: Connection, school_id: int) -> list[Any]:
-    """The baseline of the overview: one indexed SELECT of the school's pilots' status rows.
+    """The baseline of the overview: one indexed SELECT of the school's pilots' kept status rows.
 
-    There is no kept-current status table yet, so this reads the pilots' rows of
-    ``people`` (indexed by school); point it at the status table when that lands.
+    The columns the overview reads: the pilot's id, name and ``status_revision``
+    (to tell a stale row), and the kept row's day, revision, rules digest, sort
+    key and whole report (JSON); by ``people.school_id`` like the overview's own query.
     """
     return list(conn.execute(
-        sa.text("SELECT * FROM people WHERE school_id = :school AND is_pilot = :yes"),
+        sa.text("SELECT p.id, p.name, p.status_revision, k.as_of, k.revision, k.rules_digest, k.soonest, k.report "
+                "FROM people p JOIN kept_statuses k ON k.person_id = p.id "
+                "WHERE p.school_id = :school AND p.is_pilot = :yes ORDER BY p.id"),
         {"school": school_id, "yes": True},
     ))
 
 
-BASELINE_NOTE = "pilots' rows of the people table (no status table yet)"
+BASELINE_NOTE = "the school's kept_statuses rows joined to their pilots: id, name, revisions, day, sort key, report JSON"
 
 
 def timed(fns: dict[str, Callable[[], Any]], runs: int, budget: float) -> dict[str, tuple[float, int]]:
@@ -577,13 +628,27 @@ def saved_entry(ref: str, pilot_k: int, pilots: int) -> core.Entry:
 def service_save(sessions: Any, pilot_id: int, entry: core.Entry) -> None:
     """Save one entry the way the entry form's route does after checking it: stage it, then commit.
 
-    When the kept-current status lands, its update on save belongs here too
-    (whatever the route calls after ``add_entries``).
+    As in ``planner.web.logbook.create``: ``repository.add_entries`` then
+    ``commit``, whose before-commit hook (``planner.status.settle``)
+    re-evaluates the pilot's kept status in the same transaction; so the
+    status update is part of what is timed.
     """
     with sessions() as session:
         person = session.get(models.Person, pilot_id)
         repository.add_entries(session, person, [entry])
         session.commit()
+
+
+def kept_status(engine: Engine, pilot_id: int) -> dict[str, Any] | None:
+    """The pilot's kept row (day, revision) beside the person's ``status_revision``; None without a row."""
+    with engine.connect() as conn:
+        row = conn.execute(sa.text(
+            "SELECT k.as_of, k.revision, p.status_revision FROM people p JOIN kept_statuses k ON k.person_id = p.id "
+            "WHERE p.id = :id"), {"id": pilot_id}).one_or_none()
+    if row is None:
+        return None
+    as_of = row.as_of if isinstance(row.as_of, date) else date.fromisoformat(row.as_of)
+    return {"as_of": as_of, "revision": row.revision, "status_revision": row.status_revision}
 
 
 def entry_count(engine: Engine) -> int:
@@ -632,6 +697,9 @@ def measure_save(app: Any, engine: Engine, pilots: int, runs: int, budget: float
     stored = entry_count(engine) - before
     if stored != sum(made.values()):
         raise RuntimeError(f"{sum(made.values())} saves made but {stored} entries stored")
+    kept = kept_status(engine, pilot_id)
+    if kept is None or kept["revision"] != kept["status_revision"] or kept["as_of"] != AS_OF:
+        raise RuntimeError(f"the saves left the pilot's kept status stale: {kept}")
     return {"service": best["service"][0], "form": best["form"][0], "insert": best["insert"][0],
             "rounds": best["service"][1], "stored": stored}
 
@@ -961,11 +1029,12 @@ def main(argv: list[str] | None = None) -> int:
             (throwaway_postgres(args.db) if postgres else _nothing()) as pg_url:
         if postgres:
             t0 = time.perf_counter()
-            populate(pg_url, scale)
-            url, generated, from_cache = pg_url, time.perf_counter() - t0, False
+            counts = populate(pg_url, scale)
+            url, from_cache = pg_url, False
+            timings = {"generated": time.perf_counter() - t0, "refresh": counts["refresh_seconds"]}
         else:
             cache = None if args.no_cache else Path(tempfile.gettempdir()) / "planner-bench-school"
-            url, generated, from_cache = sqlite_database(scale, Path(tmp), cache)
+            url, timings, from_cache = sqlite_database(scale, Path(tmp), cache)
         engine = make_engine(url)
         app = make_app(url)
         try:
@@ -973,7 +1042,11 @@ def main(argv: list[str] | None = None) -> int:
             print(f"school: {scale.pilots} pilots x {scale.entries} entries ({total:,} entries), "
                   f"{'PostgreSQL' if postgres else 'SQLite'}; "
                   + ("generation reused from the cache" if from_cache else
-                     f"generated (migrations + bulk insert) in {generated:.1f} s"))
+                     f"generated (migrations + bulk insert + refresh) in {timings['generated']:.1f} s"))
+            if "refresh" in timings:
+                print(f"refresh of {scale.pilots} pilots x {scale.entries:,} entries took {timings['refresh']:.1f} s "
+                      f"(planner.status.refresh, as the daily `planner refresh`"
+                      f"{'; measured when the cached file was made' if from_cache else ''})")
             say("measuring (a) the overview ...")
             a = measure_overview(app, engine, scale.pilots, args.runs, args.budget)
             print(f"(a) overview request (instructor, test client): {a['request'] * 1000:10.1f} ms; "

@@ -75,7 +75,7 @@ def load_logbook(session: Session, pilot_id: int) -> Logbook:
     Raises ``LookupError`` when there is no such pilot.
     """
     person = get_pilot(session, pilot_id)
-    return repository.to_logbook(person, repository.current_entries(session, pilot_id))
+    return repository.current_logbook(session, person)
 
 
 def export_logbook(session: Session, pilot_id: int) -> Logbook:
@@ -693,13 +693,17 @@ def rule_sets_for(person: models.Person) -> tuple[RuleSet, ...]:
 
 @dataclass(frozen=True)
 class PilotStatus:
-    """What the dashboard shows: the report as of ``as_of``, the timeline, and a what-if if asked."""
+    """What the dashboard shows: the report as of ``as_of``, the timeline, and a what-if if asked.
+
+    ``logbook``: the pilot's logbook as loaded for these (for other panels of the same page).
+    """
 
     pilot_id: int
     rule_sets: tuple[RuleSet, ...]
     report: currency.CurrencyReport
     timeline: currency.TimelineReport | None = None
     what_if: currency.WhatIfReport | None = None
+    logbook: Logbook | None = None
 
 
 def pilot_status(
@@ -725,7 +729,7 @@ def pilot_status(
     if timeline_range is not None:
         chart = currency.timeline(logbook, sets, timeline_range[0], timeline_range[1], planned)
     moves = currency.what_if(logbook, sets, as_of, planned) if planned else None
-    return PilotStatus(pilot_id, sets, report, chart, moves)
+    return PilotStatus(pilot_id, sets, report, chart, moves, logbook)
 
 
 @dataclass(frozen=True)
@@ -914,16 +918,19 @@ def baseline_minimums(person: models.Person) -> minimums.Minimums | None:
     )
 
 
-def advised_minimums(session: Session, pilot_id: int, as_of: date) -> minimums.Advice | None:
+def advised_minimums(
+    session: Session, pilot_id: int, as_of: date, *, logbook: Logbook | None = None
+) -> minimums.Advice | None:
     """Advised personal minimums for ``as_of`` from the pilot's baseline and logbook; None without a baseline.
 
+    ``logbook``: the pilot's current logbook if the caller has already loaded it (it is not read again).
     Advisory only (``planner.CAUTION``). Raises ``LookupError`` for an unknown pilot.
     """
     person = get_pilot(session, pilot_id)
     baseline = baseline_minimums(person)
     if baseline is None:
         return None
-    entries = load_logbook(session, pilot_id).entries
+    entries = (logbook if logbook is not None else load_logbook(session, pilot_id)).entries
     return minimums.advise(baseline, minimums.recency_from(entries, as_of))
 
 

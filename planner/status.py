@@ -184,7 +184,7 @@ def stale_reason(revision: int, kept: models.KeptStatus | None, as_of: date) -> 
 
 def _evaluate(session: Session, person: models.Person, as_of: date, logbook: Logbook | None = None) -> currency.CurrencyReport:
     if logbook is None:
-        logbook = repository.to_logbook(person, repository.current_entries(session, person.id))
+        logbook = repository.current_logbook(session, person)
     return currency.evaluate(logbook, services.rule_sets_for(person), as_of)
 
 
@@ -205,14 +205,16 @@ def school_statuses(session: Session, school_id: int, as_of: date) -> list[KeptR
     """Every pilot of the school with their status as of ``as_of``, in pilot id order.
 
     One query reads the people and their kept rows; only stale rows are
-    re-evaluated (and staged for storing; the caller commits).
+    re-evaluated (and staged for storing; the caller commits), after one
+    more query reads those pilots' settings.
     """
     out: list[KeptReport] = []
     fresh_values = []
-    for person, kept in rows.school_rows(session, school_id):
-        # The revision was read in the same statement as the row, before the entries are: a change
-        # committed in between makes the stored label older than its content, never newer.
-        revision = person.status_revision
+    # The revision was read in the same statement as the row, before the entries are: a change
+    # committed in between makes the stored label older than its content, never newer.
+    listed = [(person, kept, person.status_revision) for person, kept in rows.school_rows(session, school_id)]
+    rows.load_inputs(session, [p for p, kept, revision in listed if stale_reason(revision, kept, as_of) is not None])
+    for person, kept, revision in listed:
         if stale_reason(revision, kept, as_of) is None:
             assert kept is not None
             out.append(KeptReport(person, report_from_json(kept.report, as_of), kept.soonest, False))

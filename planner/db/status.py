@@ -22,7 +22,7 @@ from collections.abc import Callable, Iterable
 from typing import Any
 
 from sqlalchemy import and_, event, func, inspect, or_, select
-from sqlalchemy.orm import Session
+from sqlalchemy.orm import Session, load_only
 
 from planner.db import models
 
@@ -115,19 +115,41 @@ def _transaction_over(session: Session) -> None:
 # ---------------------------------------------------------------- reads
 
 
+# The person columns a list of kept statuses reads; the others (the evaluation's inputs among them) load on
+# first use, i.e. only for a pilot whose row is stale and is re-evaluated.
+LIST_COLUMNS = ("id", "name", "school_id", "is_pilot", "status_revision")
+
+
 def school_rows(session: Session, school_id: int) -> list[tuple[models.Person, models.KeptStatus | None]]:
-    """Every pilot of the school with their kept row (None if missing): one query, by ``people.school_id``."""
-    K = models.KeptStatus
+    """Every pilot of the school with their kept row (None if missing): one query, by ``people.school_id``.
+
+    Only ``LIST_COLUMNS`` of the people are read with it (not their JSON
+    settings, password hash and the like, which a list of 500 pilots would
+    otherwise decode for nothing).
+    """
+    K, P = models.KeptStatus, models.Person
     return [
         (person, kept)
         for person, kept in session.execute(
-            select(models.Person, K)
-            .outerjoin(K, K.person_id == models.Person.id)
-            .where(models.Person.school_id == school_id, models.Person.is_pilot.is_(True))
-            .order_by(models.Person.id)
+            select(P, K)
+            .outerjoin(K, K.person_id == P.id)
+            .where(P.school_id == school_id, P.is_pilot.is_(True))
+            .order_by(P.id)
+            .options(load_only(*(getattr(P, name) for name in LIST_COLUMNS)))
             .execution_options(populate_existing=True)
         )
     ]
+
+
+def load_inputs(session: Session, people: list[models.Person]) -> None:
+    """Read the columns that ``school_rows`` left unread (the evaluation's inputs among them) of ``people``.
+
+    One query for them all; the columns already read (``status_revision``
+    among them) keep the values they were read with.
+    """
+    ids = [person.id for person in people]
+    if ids:
+        session.execute(select(models.Person).where(models.Person.id.in_(ids))).all()
 
 
 def pilot_rows(

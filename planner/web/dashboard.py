@@ -28,7 +28,7 @@ from wtforms.validators import InputRequired, Length, NumberRange, Optional, Val
 
 from planner import planning, services
 from planner.core import currency
-from planner.core.logbook import Approach, Entry
+from planner.core.logbook import Approach, Entry, Logbook
 from planner.db import models
 from planner.web import access, chart, db_session, forms, now, today
 from planner.web import status_words as words
@@ -250,9 +250,12 @@ def _move(move: currency.RequirementMove, practice: bool) -> dict[str, Any]:
     }
 
 
-def _minimums(person: models.Person, as_of: date) -> dict[str, Any] | None:
-    """The advised-minimums card: baseline -> advised per item and each adjustment; None without a baseline."""
-    advice = services.advised_minimums(db_session(), person.id, as_of)
+def _minimums(person: models.Person, as_of: date, logbook: Logbook | None) -> dict[str, Any] | None:
+    """The advised-minimums card: baseline -> advised per item and each adjustment; None without a baseline.
+
+    ``logbook``: the pilot's logbook as the page already loaded it.
+    """
+    advice = services.advised_minimums(db_session(), person.id, as_of, logbook=logbook)
     if advice is None:
         return None
     base, adv = advice.baseline, advice.advised
@@ -357,7 +360,7 @@ def _page(
             max_planned=MAX_PLANNED,
             action=url_for("dashboard.what_if", pilot_id=person.id),
             sessions=_sessions(person),
-            minimums=_minimums(person, as_of),
+            minimums=_minimums(person, as_of, result.logbook),
             can_edit=access.can_edit(person),
         ),
         status,

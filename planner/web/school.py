@@ -5,7 +5,7 @@ from __future__ import annotations
 import csv
 import io
 from datetime import date, timedelta
-from typing import Any
+from typing import NamedTuple
 
 from flask import Blueprint, Response, abort, render_template, request
 from flask_login import current_user, login_required
@@ -82,16 +82,32 @@ def _columns(rows: list[services.OverviewRow]) -> list[tuple[str, str, str]]:
     return [(rs, rid, seen[(rs, rid)]) for rs, rid in keys]
 
 
-def _cell(statuses: list[currency.RequirementStatus], as_of: date) -> list[dict[str, Any]]:
+class Cell(NamedTuple):
+    """One requirement (in one scope) of one pilot, as the overview table prints it."""
+
+    scope: str
+    state: str
+    state_word: str
+    valid_through: str
+    days_left: str
+
+
+class Line(NamedTuple):
+    """One pilot's row of the overview table: the pilot and one list of cells per column."""
+
+    row: services.OverviewRow
+    cells: list[list[Cell]]
+
+
+def _cell(statuses: list[currency.RequirementStatus], as_of: date) -> list[Cell]:
     return [
-        {
-            "scope": words.short_label(s.rule_set, s.id, s.title, s.scope).partition(" · ")[2],
-            "state": s.state,
-            "state_word": words.STATE_WORDS[s.state],
-            "headline": words.headline(s, services.is_practice(s)),
-            "valid_through": words.fmt(s.valid_through),
-            "days_left": words.days_left(s, as_of),
-        }
+        Cell(
+            scope=words.short_label(s.rule_set, s.id, s.title, s.scope).partition(" · ")[2],
+            state=s.state,
+            state_word=words.STATE_WORDS[s.state],
+            valid_through=words.fmt(s.valid_through),
+            days_left=words.days_left(s, as_of),
+        )
         for s in statuses
     ]
 
@@ -104,10 +120,10 @@ def overview():  # type: ignore[no-untyped-def]
     columns = _columns(rows)
     table = []
     for row in rows:
-        cells = []
-        for rs, rid, _title in columns:
-            cells.append(_cell([s for s in row.statuses if s.rule_set == rs and s.id == rid], as_of))
-        table.append({"row": row, "cells": cells})
+        by_column: dict[tuple[str, str], list[currency.RequirementStatus]] = {}
+        for s in row.statuses:
+            by_column.setdefault((s.rule_set, s.id), []).append(s)
+        table.append(Line(row, [_cell(by_column.get((rs, rid), []), as_of) for rs, rid, _title in columns]))
     return render_template(
         "school/overview.html",
         school=school,

@@ -18,10 +18,12 @@ from types import ModuleType
 import pytest
 from sqlalchemy import Engine, func, select
 
-from planner import services
+from planner import services, status
 from planner.config import REPO_ROOT
+from planner.core import currency
 from planner.core.logbook import Logbook
 from planner.db import models, repository
+from planner.db import status as kept_rows
 from planner.db.session import make_engine, make_session_factory
 from planner.export import interchange
 from tests.security.helpers import serve
@@ -85,6 +87,35 @@ def test_the_generated_school_reads_back_through_the_app_exactly_as_generated(ge
             assert all((r.aircraft_id or r.device_id) is not None for r in rows)
 
 
+def _fresh_evaluation_is_kept(engine: Engine, pilot_id: int) -> bool:
+    """Whether the pilot's kept row is for AS_OF, at their current revision, and equal to a fresh evaluation."""
+    with make_session_factory(engine)() as s:
+        person = s.get(models.Person, pilot_id)
+        row = kept_rows.kept_row(s, pilot_id)
+        if row is None or row.as_of != school.AS_OF or row.revision != person.status_revision:
+            return False
+        fresh = currency.evaluate(services.load_logbook(s, pilot_id), services.rule_sets_for(person), school.AS_OF)
+        return row.rules_digest == status.RULES_DIGEST and status.report_from_json(row.report, school.AS_OF) == fresh
+
+
+def test_the_generated_school_has_every_status_kept_as_the_daily_refresh_leaves_it(generated, engine) -> None:  # type: ignore[no-untyped-def]
+    _path, counts = generated
+    assert counts["refresh_seconds"] > 0
+    pilots = range(school.INSTRUCTORS + 1, school.INSTRUCTORS + SCALE.pilots + 1)
+    assert all(_fresh_evaluation_is_kept(engine, pilot_id) for pilot_id in pilots)
+    with engine.connect() as conn:
+        rows = school.bare_status_select(conn, school.school_id(engine))
+    assert [row.id for row in rows] == list(pilots)
+    assert all(row.report and row.as_of for row in rows)
+
+
+def test_a_cached_school_is_rebuilt_when_the_rules_digest_changes(monkeypatch) -> None:  # type: ignore[no-untyped-def]
+    # Kept statuses made under other rule files would all be stale: the cache key carries the digest.
+    before = school.cache_key(SCALE)
+    monkeypatch.setattr(status, "RULES_DIGEST", "0123456789abcdef")
+    assert school.cache_key(SCALE) != before and school.cache_key(SCALE).endswith("-r0123456789abcdef")
+
+
 def test_the_overview_and_save_measurements_give_figures_and_store_every_save(engine, toy_url) -> None:  # type: ignore[no-untyped-def]
     app = school.make_app(toy_url)
     try:
@@ -94,9 +125,15 @@ def test_the_overview_and_save_measurements_give_figures_and_store_every_save(en
         cold = school.measure_overview(app, engine, SCALE.pilots, runs=3, budget=0)  # over budget: the first run counts
         assert cold["request"] > 0 and cold["rounds"] == 0 and cold["pilots shown"] == SCALE.pilots
         before = _entries(engine)
+        saver = school.INSTRUCTORS + SCALE.pilots  # the last pilot records the benchmark's flights
+        revision = school.kept_status(engine, saver)["status_revision"]
         b = school.measure_save(app, engine, SCALE.pilots, runs=2, budget=60)
         assert b["service"] > 0 and b["form"] > 0 and b["insert"] > 0
         assert b["stored"] == 3 * 3 == _entries(engine) - before  # a warm-up and two rounds of three kinds of save
+        # Each service and form save raised the pilot's revision and re-evaluated the kept row in its commit;
+        # the bare INSERTs bypass the ORM and the status (the baseline is the row alone).
+        assert school.kept_status(engine, saver) == {
+            "as_of": school.AS_OF, "revision": revision + 6, "status_revision": revision + 6}
     finally:
         app.extensions["planner.engine"].dispose()
 

@@ -221,3 +221,29 @@ def test_to_logbook_carries_the_pilot_block(session: Session) -> None:
     )
     book = repository.to_logbook(pilot, [])
     assert book.pilot == Pilot("Signe Mbeki", "America/Denver", ("airplane",), ("airplane/single-engine-land",))
+
+
+def test_the_plain_row_reader_gives_the_logbook_the_orm_rows_give(any_session: Session) -> None:
+    # current_logbook reads entries, approaches and checks as plain rows (no ORM objects); it must give
+    # exactly what to_logbook(current_entries(...)) gives: same entries, same order, same values.
+    pilot = _pilot(any_session)
+    other = _pilot(any_session, "Odile Brannock")
+    same_day = dataclasses.replace(RICH, id="2026-11-14-b", approaches=RICH.approaches[::-1], checks=("ipc",))
+    older = dataclasses.replace(RICH, id="2019-03-02", date=date(2019, 3, 2), approaches=(), checks=(),
+                                conditions=None, course_tracking=False, instrument_simulated_hours=0.0)
+    gone = dataclasses.replace(RICH, id="gone", date=date(2025, 1, 1))
+    edited = dataclasses.replace(RICH, id="edited", date=date(2024, 6, 30))
+    rows = repository.add_entries(any_session, pilot, [RICH, same_day, older, gone, edited], now=T0)
+    repository.add_entries(any_session, other, [dataclasses.replace(RICH, remarks="not hers")], now=T0)
+    repository.delete_entry(any_session, rows[3], now=T0)
+    changed = dataclasses.replace(edited, approaches=(Approach(type="VOR", airfield="QPNV"),), checks=("flight-review",))
+    repository.revise_entry(any_session, rows[4], changed, now=T0)
+    rows[2].remarks = "changed, not yet flushed"  # the reader flushes first, as an ORM query would
+    expected = (dataclasses.replace(older, remarks="changed, not yet flushed"), changed, RICH, same_day)
+
+    assert repository.current_logbook(any_session, pilot).entries == expected
+    assert repository.current_logbook(any_session, pilot) == repository.to_logbook(
+        pilot, repository.current_entries(any_session, pilot.id)
+    )
+    assert repository.current_core_entries(any_session, other.id) == (dataclasses.replace(RICH, remarks="not hers"),)
+    assert repository.current_core_entries(any_session, 999_999) == ()

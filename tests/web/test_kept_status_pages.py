@@ -85,6 +85,48 @@ def test_opening_the_dashboard_keeps_a_missing_status(client: FlaskClient, app: 
     assert_kept_exact(app, pid)
 
 
+def _logbook_reads(monkeypatch: pytest.MonkeyPatch) -> list[int]:
+    """Record the pilot id of every read of a pilot's whole current logbook."""
+    reads: list[int] = []
+    real = repository.current_core_entries
+
+    def counted(session: Any, pilot_id: int) -> tuple[Entry, ...]:
+        reads.append(pilot_id)
+        return real(session, pilot_id)
+
+    monkeypatch.setattr(repository, "current_core_entries", counted)
+    return reads
+
+
+def test_the_dashboard_reads_the_logbook_once_for_the_status_timeline_and_minimums_card(
+    client: FlaskClient, app: Flask, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    act_as(client, app, "pilot")
+    pid = person_id(app, "pilot")
+    assert_kept_exact(app, pid)
+    reads = _logbook_reads(monkeypatch)
+    page = client.get("/").get_data(as_text=True)
+    assert 'id="advised-minimums"' in page and "<svg" in page  # the demo pilot has a baseline: the card is there
+    assert reads == [pid]
+    with app.extensions["planner.engine"].begin() as conn:  # stale now: re-evaluated from the same read
+        conn.execute(text("DELETE FROM kept_statuses WHERE person_id = :p"), {"p": pid})
+    reads.clear()
+    assert client.get("/").status_code == 200
+    assert reads == [pid]
+    assert_kept_exact(app, pid)
+
+
+def test_a_save_through_the_entry_form_reads_the_logbook_once_to_keep_the_status(
+    client: FlaskClient, app: Flask, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    act_as(client, app, "pilot")
+    pid = person_id(app, "pilot")
+    reads = _logbook_reads(monkeypatch)
+    assert post_form(client, f"/pilots/{pid}/logbook/new", form_data()).status_code == 302  # a GET, then the POST
+    assert reads == [pid]  # the re-evaluation before the commit, and nothing else
+    assert_kept_exact(app, pid)
+
+
 def _more_pilots(count: int):  # type: ignore[no-untyped-def]
     """``extra`` for build_database: ``count`` more pilots of the demo school, each with a few entries."""
 
