@@ -184,15 +184,6 @@ def read_reports(text: str | None, *, now: datetime) -> tuple[weather.Metar | we
         raise WeatherRejected(str(exc)) from None
 
 
-def _whole(value: Any) -> int:
-    if isinstance(value, bool):
-        raise TypeError
-    number = float(value)
-    if number != int(number):
-        raise ValueError
-    return int(number)
-
-
 def practice_minimums(ceiling_ft: Any = None, visibility_sm: Any = None) -> weather.PracticeMinimums:
     """The plan's practice minimums; None keeps the default (ceiling 3,000 ft, visibility 5 SM).
 
@@ -201,7 +192,7 @@ def practice_minimums(ceiling_ft: Any = None, visibility_sm: Any = None) -> weat
     """
     default = weather.DEFAULT_MINIMUMS
     try:
-        ceiling = default.ceiling_ft if ceiling_ft is None else _whole(ceiling_ft)
+        ceiling = default.ceiling_ft if ceiling_ft is None else services.whole_number(ceiling_ft)
         if not 0 <= ceiling <= MAX_MIN_CEILING_FT:
             raise ValueError
     except (TypeError, ValueError, OverflowError):

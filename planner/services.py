@@ -841,7 +841,7 @@ def _set_minimums(person: models.Person, ceiling_ft: Any, visibility_sm: Any, cr
         if value is None:
             raise SettingsRejected(name, "give all three minimums, or leave all three empty")
     try:
-        ceiling = _whole(ceiling_ft)
+        ceiling = whole_number(ceiling_ft)
         if not 0 <= ceiling <= MAX_CEILING_FT:
             raise ValueError
     except (TypeError, ValueError, OverflowError):
@@ -858,7 +858,7 @@ def _set_minimums(person: models.Person, ceiling_ft: Any, visibility_sm: Any, cr
             "min_visibility_sm", f"statute miles from 0 to {MAX_VISIBILITY_SM}, at most two decimals (e.g. 1.5)"
         ) from None
     try:
-        crosswind = _whole(crosswind_kt)
+        crosswind = whole_number(crosswind_kt)
         if not 0 <= crosswind <= MAX_CROSSWIND_KT:
             raise ValueError
     except (TypeError, ValueError, OverflowError):
@@ -868,7 +868,8 @@ def _set_minimums(person: models.Person, ceiling_ft: Any, visibility_sm: Any, cr
     person.min_crosswind_kt = crosswind
 
 
-def _whole(value: Any) -> int:
+def whole_number(value: Any) -> int:
+    """``value`` as an int when it is a whole number (``3``, ``"3"``, ``3.0``); TypeError/ValueError otherwise."""
     if isinstance(value, bool):
         raise TypeError
     number = float(value)

@@ -65,33 +65,17 @@ def _quiet(_message: str) -> None:
 # ---------------------------------------------------------------- report <-> JSON
 
 
-def _day(value: date | None) -> str | None:
-    return value.isoformat() if value is not None else None
-
-
 def _from_day(value: str | None) -> date | None:
     return date.fromisoformat(value) if value is not None else None
 
 
 def report_to_json(report: currency.CurrencyReport) -> dict[str, Any]:
-    """The report as JSON-ready data (every field of every requirement)."""
+    """The report as JSON-ready data (every field of every requirement; ``currency.status_to_json`` per row)."""
     return {
         "rule_sets": list(report.rule_sets),
         "requirements": [
-            {
-                "rule_set": s.rule_set,
-                "id": s.id,
-                "scope": s.scope,
-                "title": s.title,
-                "citation": s.citation,
-                "state": s.state,
-                "valid_through": _day(s.valid_through),
-                "regain_by": _day(s.regain_by),
-                "regain_with": s.regain_with,
-                "missing": {unit: list(v) if isinstance(v, (list, tuple)) else v for unit, v in s.missing.items()},
-                "evidence": list(s.evidence),
-                "warnings": list(s.warnings),
-            }
+            {**currency.status_to_json(s),
+             "missing": {unit: list(v) if isinstance(v, (list, tuple)) else v for unit, v in s.missing.items()}}
             for s in report.requirements
         ],
     }
