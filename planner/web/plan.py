@@ -162,15 +162,20 @@ def _propose(school: models.School, form: RangeForm) -> planning.Proposal | None
         return None
 
 
+def _posted_proposal(school: models.School) -> tuple[RangeForm, planning.Proposal | None]:
+    """The posted range form and the proposal for it; ``None`` when the form was refused (errors at its fields)."""
+    form = RangeForm()
+    if not _checked_range(form, today(_tz(school))):
+        return form, None
+    return form, _propose(school, form)
+
+
 @bp.route("/plan/propose", methods=["POST"])
 @login_required
 def propose():  # type: ignore[no-untyped-def]
     """Propose sessions for the range and show each with its reasons; nothing is stored yet."""
     school = _school_or_404()
-    form = RangeForm()
-    if not _checked_range(form, today(_tz(school))):
-        return _index(school, form=form, status=400)
-    proposal = _propose(school, form)
+    form, proposal = _posted_proposal(school)
     if proposal is None:
         return _index(school, form=form, status=400)
     people = {pid: _name(key) for key, pid in proposal.person_ids.items()}
@@ -205,10 +210,7 @@ def propose():  # type: ignore[no-untyped-def]
 def save():  # type: ignore[no-untyped-def]
     """Store the proposals for the range (computed again now, so they respect anything booked meanwhile)."""
     school = _school_or_404()
-    form = RangeForm()
-    if not _checked_range(form, today(_tz(school))):
-        return _index(school, form=form, status=400)
-    proposal = _propose(school, form)
+    form, proposal = _posted_proposal(school)
     if proposal is None:
         return _index(school, form=form, status=400)
     session = db_session()
