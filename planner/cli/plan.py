@@ -10,7 +10,7 @@ from pathlib import Path
 from zoneinfo import ZoneInfo
 
 from planner import CAUTION
-from planner.cli.data import EXIT_BAD_INPUT, EXIT_NOT_FOUND, CommandError, _err, _guarded, open_session
+from planner.cli.data import EXIT_BAD_INPUT, EXIT_NOT_FOUND, CommandError, _err, _guarded, _positive_int, open_session
 from planner.config import Settings
 
 
@@ -19,16 +19,6 @@ def _date_arg(text: str) -> date:
         return date.fromisoformat(text)
     except ValueError:
         raise argparse.ArgumentTypeError(f"expected a date YYYY-MM-DD, got {text!r}") from None
-
-
-def _id_arg(text: str) -> int:
-    try:
-        value = int(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"must be a whole number, got {text!r}") from None
-    if value < 1:
-        raise argparse.ArgumentTypeError(f"must be 1 or more, got {value}")
-    return value
 
 
 def cmd_schools(args: argparse.Namespace) -> int:
@@ -278,7 +268,7 @@ def register(sub: argparse._SubParsersAction) -> None:
         "each choice, says which source judged the weather, and lists the needs no session meets. Advisory "
         "only: the pilot in command decides.",
     )
-    p.add_argument("--school", type=_id_arg, required=True, metavar="ID", help="school id (see `planner schools`)")
+    p.add_argument("--school", type=_positive_int, required=True, metavar="ID", help="school id (see `planner schools`)")
     p.add_argument("--from", dest="start", type=_date_arg, required=True, metavar="YYYY-MM-DD")
     p.add_argument("--to", dest="end", type=_date_arg, required=True, metavar="YYYY-MM-DD")
     p.add_argument("--json", action="store_true", help="print JSON instead of a table")
@@ -302,7 +292,7 @@ def register(sub: argparse._SubParsersAction) -> None:
         description="Write an iCalendar file with the pilot's practice sessions (either seat; cancelled ones "
         "marked cancelled) and all-day deadlines (currency ends, regain stage ends, practice due), with alarms.",
     )
-    p.add_argument("--pilot", type=_id_arg, required=True, metavar="ID", help="pilot id (see `planner pilots`)")
+    p.add_argument("--pilot", type=_positive_int, required=True, metavar="ID", help="pilot id (see `planner pilots`)")
     p.add_argument("-o", "--output", metavar="FILE", help="write to FILE instead of standard output")
     p.add_argument("--as-of", type=_date_arg, metavar="YYYY-MM-DD",
                    help="deadlines from this day (default: today in the pilot's home time zone)")
